@@ -1,0 +1,16 @@
+//! plateau: robustness studies of analytical methods, from one YAML study file to the typeset
+//! robustness chapter of a method-validation report.
+//!
+//! The pipeline runs in one direction, each stage a function of the one before:
+//! 1. [`study::load`] — read and check the study file (schema, types, semantic rules);
+//! 2. [`design::plan`] — the coded runs, run order and the contrasts with their alias chains;
+//! 3. [`study::results::read`] — the measured values, matched to the planned runs by id;
+//! 4. [`analysis::analyse`] — effects, percent effects, verdicts;
+//! 5. [`report`] — the template context, the Typst source, and the typesetter call.
+#![deny(missing_docs)]
+
+pub mod analysis;
+pub mod design;
+pub mod pipeline;
+pub mod report;
+pub mod study;

@@ -1,0 +1,153 @@
+//! The report: template context, Typst source, tables, analysis JSON and the typeset PDF, written
+//! as one folder.
+//!
+//! Renderers return bytes; `write` is the one place that touches the file system. The folder is
+//! assembled under a temporary name beside its destination and renamed into place only when
+//! every file (the PDF included) is complete, so a failure leaves the previous report intact.
+
+pub mod conclusion;
+pub mod context;
+pub mod escape;
+pub mod format;
+pub mod render;
+pub mod tables;
+pub mod typst;
+
+use std::path::{Path, PathBuf};
+
+use crate::pipeline::Evaluated;
+
+/// What the report command needs besides the study.
+#[derive(Debug, Clone, Default)]
+pub struct Options {
+    /// Destination folder; default `<study stem>-report/` beside the study file.
+    pub out_dir: Option<PathBuf>,
+    /// A folder of templates overriding the built-in ones file by file.
+    pub templates: Option<PathBuf>,
+    /// The typesetter, or `None` for `--no-pdf`.
+    pub typst: Option<typst::Typst>,
+}
+
+/// A failure while producing a report.
+#[derive(Debug, thiserror::Error)]
+pub enum ReportError {
+    /// A template failed.
+    #[error(transparent)]
+    Template(#[from] render::TemplateError),
+    /// The typesetter failed.
+    #[error(transparent)]
+    Typst(#[from] typst::TypstError),
+    /// A file could not be written.
+    #[error("failed to write {path} ({cause})")]
+    Write {
+        /// The path.
+        path: String,
+        /// The reason.
+        cause: String,
+    },
+}
+
+impl ReportError {
+    fn write(path: &Path, e: impl std::fmt::Display) -> Self {
+        Self::Write {
+            path: path.display().to_string(),
+            cause: e.to_string(),
+        }
+    }
+}
+
+/// The default report folder of a study file: `<stem>-report` beside it.
+pub fn default_dir(study_path: &Path) -> PathBuf {
+    let stem = study_path
+        .file_stem()
+        .map(|s| s.to_string_lossy().to_string())
+        .unwrap_or_else(|| "study".to_string());
+    study_path
+        .parent()
+        .unwrap_or_else(|| Path::new("."))
+        .join(format!("{stem}-report"))
+}
+
+/// The files of a report except the PDF, as (name, bytes), in a fixed order.
+pub fn render_files(
+    evaluated: &Evaluated,
+    options: &Options,
+) -> Result<Vec<(String, Vec<u8>)>, ReportError> {
+    let typst_version = options.typst.as_ref().map(|t| t.version.as_str());
+    let ctx = context::build(evaluated, typst_version);
+    let env = render::environment(options.templates.as_deref());
+    let source = render::render(
+        &env,
+        "report.typ.j2",
+        minijinja::Value::from(minijinja::value::Serde(&ctx)),
+    )?;
+    let mut files = vec![("report.typ".to_string(), source.into_bytes())];
+    let json = serde_json::to_string_pretty(&evaluated.analysis)
+        .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
+    files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));
+    files.extend(tables::csv_files(evaluated));
+    Ok(files)
+}
+
+/// Writes the report folder and returns its path.
+pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, ReportError> {
+    let files = render_files(evaluated, options)?;
+    let dest = options
+        .out_dir
+        .clone()
+        .unwrap_or_else(|| default_dir(&evaluated.study.path));
+    let parent = dest
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|| PathBuf::from("."));
+    let name = dest
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_else(|| "report".into());
+    std::fs::create_dir_all(&parent).map_err(|e| ReportError::write(&parent, e))?;
+    let staging = parent.join(format!(".{name}.partial-{}", std::process::id()));
+    let result = (|| {
+        if staging.exists() {
+            std::fs::remove_dir_all(&staging).map_err(|e| ReportError::write(&staging, e))?;
+        }
+        std::fs::create_dir(&staging).map_err(|e| ReportError::write(&staging, e))?;
+        for (file, bytes) in &files {
+            let path = staging.join(file);
+            std::fs::write(&path, bytes).map_err(|e| ReportError::write(&path, e))?;
+        }
+        if let Some(typst) = &options.typst {
+            let packages = parent.join(format!(".{name}.no-packages-{}", std::process::id()));
+            std::fs::create_dir_all(&packages).map_err(|e| ReportError::write(&packages, e))?;
+            let stamp = typst::unix_midnight(&evaluated.study.info.date).unwrap_or(0);
+            let compiled = typst.compile(&staging, "report.typ", "report.pdf", stamp, &packages);
+            let _ = std::fs::remove_dir_all(&packages);
+            compiled?;
+        }
+        replace_dir(&staging, &dest)
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_dir_all(&staging);
+    }
+    result.map(|()| dest)
+}
+
+/// Moves `staging` to `dest`, replacing an existing report only after the new one is complete.
+fn replace_dir(staging: &Path, dest: &Path) -> Result<(), ReportError> {
+    if dest.exists() {
+        let old = dest.with_file_name(format!(
+            ".{}.old-{}",
+            dest.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default(),
+            std::process::id()
+        ));
+        std::fs::rename(dest, &old).map_err(|e| ReportError::write(dest, e))?;
+        if let Err(e) = std::fs::rename(staging, dest) {
+            let _ = std::fs::rename(&old, dest);
+            return Err(ReportError::write(dest, e));
+        }
+        let _ = std::fs::remove_dir_all(&old);
+        Ok(())
+    } else {
+        std::fs::rename(staging, dest).map_err(|e| ReportError::write(dest, e))
+    }
+}

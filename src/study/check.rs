@@ -1,0 +1,518 @@
+//! Semantic checks: the rules the schema cannot express, turning the file model into a `Study`.
+//!
+//! All problems are collected, not just the first, and each names its field and what would be
+//! valid, so a user fixes a file in one pass.
+
+use std::collections::BTreeSet;
+use std::path::Path;
+
+use serde_json::Value;
+
+use super::diagnostic::{Diagnostic, Diagnostics, FieldPath, closest};
+use super::locate::Locator;
+use super::model::{self, DesignKind, LimitUnit, NominalPlacement, PercentOf, StudyFile};
+use super::{
+    DesignRequest, EffectLimit, ExplicitRun, Factor, Levels, Response, RunId, Study,
+};
+
+/// Most factors a study may have (the largest Plackett–Burman design has 47 columns).
+pub const MAX_FACTORS: usize = 47;
+/// Most factors of a full factorial (2^16 = 65,536 runs).
+pub const MAX_FULL_FACTORIAL_FACTORS: usize = 16;
+/// Most runs an explicit design may list.
+pub const MAX_EXPLICIT_RUNS: usize = 4096;
+/// Column names the results CSV reserves.
+const RESERVED_IDS: [&str; 2] = ["run", "order"];
+
+struct Checker<'a> {
+    file: &'a str,
+    locator: Locator<'a>,
+    problems: Diagnostics,
+}
+
+impl Checker<'_> {
+    fn report(&mut self, field: &FieldPath, problem: impl Into<String>, expected: Option<String>) {
+        let position = self.locator.value(&field.0);
+        self.problems
+            .push(Diagnostic::field(self.file, field, problem, expected).at(position));
+    }
+}
+
+/// Checks a parsed study file and builds the `Study`.
+pub fn study(
+    path: &Path,
+    file_name: &str,
+    text: &str,
+    sha256: String,
+    file: StudyFile,
+) -> Result<Study, Diagnostics> {
+    let mut c = Checker {
+        file: file_name,
+        locator: Locator::new(text),
+        problems: Diagnostics::default(),
+    };
+    check_date(&mut c, &file.study.date);
+    let factors = factors(&mut c, &file.factors);
+    let design = design(&mut c, &file.design, &file.factors);
+    let responses = responses(&mut c, &file, &design);
+    let limits = limits(&mut c, &file, &responses);
+    check_results_spec(&mut c, &file.results);
+    check_id_clashes(&mut c, &file);
+    if !c.problems.is_empty() {
+        return Err(c.problems.sorted());
+    }
+    Ok(Study {
+        path: path.to_path_buf(),
+        file_name: file_name.to_string(),
+        text: text.to_string(),
+        sha256,
+        info: file.study,
+        factors,
+        design,
+        responses,
+        limits,
+        results: file.results,
+        notes: file.notes,
+    })
+}
+
+fn check_date(c: &mut Checker<'_>, date: &str) {
+    let field = FieldPath::of(&["study", "date"]);
+    let parts: Vec<u32> = date.split('-').filter_map(|p| p.parse().ok()).collect();
+    let valid = match parts.as_slice() {
+        [y, m, d] => (1900..=9999).contains(y) && (1..=12).contains(m) && *d >= 1 && *d <= days_in_month(*y, *m),
+        _ => false,
+    };
+    if !valid {
+        c.report(
+            &field,
+            format!("`{date}` is not a calendar date"),
+            Some("expected a date as YYYY-MM-DD, e.g. 2026-11-18".into()),
+        );
+    }
+}
+
+/// Days in a month of the proleptic Gregorian calendar.
+pub fn days_in_month(year: u32, month: u32) -> u32 {
+    match month {
+        1 | 3 | 5 | 7 | 8 | 10 | 12 => 31,
+        4 | 6 | 9 | 11 => 30,
+        2 if (year % 4 == 0 && year % 100 != 0) || year % 400 == 0 => 29,
+        2 => 28,
+        _ => 0,
+    }
+}
+
+fn factors(c: &mut Checker<'_>, specs: &[model::FactorSpec]) -> Vec<Factor> {
+    let mut out = Vec::new();
+    let mut seen = BTreeSet::new();
+    if specs.len() > MAX_FACTORS {
+        c.report(
+            &FieldPath::of(&["factors"]),
+            format!("{} factors is more than plateau handles", specs.len()),
+            Some(format!("expected at most {MAX_FACTORS} factors")),
+        );
+    }
+    for (i, f) in specs.iter().enumerate() {
+        let at = FieldPath::of(&["factors"]).index(i);
+        if !seen.insert(f.id.clone()) {
+            c.report(
+                &at.key("id"),
+                format!("duplicate factor id `{}`", f.id),
+                Some("expected each factor id once".into()),
+            );
+        }
+        if RESERVED_IDS.contains(&f.id.as_str()) {
+            c.report(
+                &at.key("id"),
+                format!("`{}` is reserved for a results column", f.id),
+                Some("expected another id".into()),
+            );
+        }
+        if let Some(levels) = factor_levels(c, f, &at) {
+            out.push(Factor {
+                id: f.id.clone(),
+                name: f.name.clone(),
+                unit: f.unit.clone(),
+                levels,
+                justification: f.justification.clone(),
+            });
+        }
+    }
+    out
+}
+
+fn factor_levels(c: &mut Checker<'_>, f: &model::FactorSpec, at: &FieldPath) -> Option<Levels> {
+    if let Some(levels) = &f.levels {
+        for (name, present) in [
+            ("nominal", f.nominal.is_some()),
+            ("delta", f.delta.is_some()),
+            ("low", f.low.is_some()),
+            ("high", f.high.is_some()),
+        ] {
+            if present {
+                c.report(
+                    &at.key(name),
+                    format!("a categorical factor (with `levels`) has no `{name}`"),
+                    Some("expected either `levels` or numeric `nominal` with `delta` or `low`/`high`".into()),
+                );
+            }
+        }
+        return match levels.as_slice() {
+            [a, b] if a != b => Some(Levels::Categorical {
+                nominal: a.clone(),
+                alternative: b.clone(),
+            }),
+            [a, _] => {
+                c.report(
+                    &at.key("levels"),
+                    format!("both levels are `{a}`"),
+                    Some("expected two different level names".into()),
+                );
+                None
+            }
+            other => {
+                c.report(
+                    &at.key("levels"),
+                    format!("a categorical factor has {} level(s)", other.len()),
+                    Some("expected exactly two levels, the nominal one first".into()),
+                );
+                None
+            }
+        };
+    }
+    let Some(nominal) = f.nominal else {
+        c.report(
+            &at.key("nominal"),
+            "missing required field `nominal`",
+            Some("a numeric factor needs `nominal` with `delta` or `low`/`high`; a categorical one needs `levels`".into()),
+        );
+        return None;
+    };
+    let (low, high) = match (f.delta, f.low, f.high) {
+        (Some(d), None, None) => (nominal - d, nominal + d),
+        (None, Some(l), Some(h)) => (l, h),
+        (Some(_), _, _) => {
+            c.report(
+                &at.key("delta"),
+                "`delta` and `low`/`high` are both given",
+                Some("expected either `delta` or both `low` and `high`".into()),
+            );
+            return None;
+        }
+        (None, None, None) => {
+            c.report(
+                at,
+                "the factor has no range",
+                Some("expected `delta` or both `low` and `high`".into()),
+            );
+            return None;
+        }
+        (None, l, _) => {
+            let missing = if l.is_some() { "high" } else { "low" };
+            c.report(
+                &at.key(missing),
+                format!("missing `{missing}`"),
+                Some("expected both `low` and `high`".into()),
+            );
+            return None;
+        }
+    };
+    if low >= high {
+        c.report(
+            &at.key("low"),
+            format!("low ({low}) is not below high ({high})"),
+            Some("expected low < high".into()),
+        );
+        return None;
+    }
+    if nominal < low || nominal > high {
+        c.report(
+            &at.key("nominal"),
+            format!("nominal ({nominal}) lies outside the range {low} to {high}"),
+            Some("expected low ≤ nominal ≤ high".into()),
+        );
+        return None;
+    }
+    Some(Levels::Numeric { nominal, low, high })
+}
+
+fn design(
+    c: &mut Checker<'_>,
+    spec: &model::DesignSpec,
+    factors: &[model::FactorSpec],
+) -> DesignRequest {
+    let at = FieldPath::of(&["design"]);
+    let seed = match &spec.randomize {
+        None | Some(model::RandomizeSpec::Flag(false)) => None,
+        Some(model::RandomizeSpec::Flag(true)) => {
+            c.report(
+                &at.key("randomize"),
+                "`randomize: true` gives no seed, so the run order could not be reproduced",
+                Some("expected `randomize: {seed: <number>}` or `randomize: false`".into()),
+            );
+            None
+        }
+        Some(model::RandomizeSpec::Seeded(s)) => Some(s.seed),
+    };
+    let mut request = DesignRequest {
+        kind: spec.kind,
+        explicit_runs: Vec::new(),
+        center_points: spec.center_points.unwrap_or(0) as usize,
+        nominal_runs: spec.nominal_runs.unwrap_or(NominalPlacement::Spread),
+        replicates: spec.replicates.unwrap_or(1) as usize,
+        seed,
+    };
+    match spec.kind {
+        DesignKind::FullFactorial => {
+            if spec.runs.is_some() {
+                c.report(
+                    &at.key("runs"),
+                    "a full factorial has no run list",
+                    Some("remove `runs`, or use `kind: explicit` to give the runs".into()),
+                );
+            }
+            if factors.len() > MAX_FULL_FACTORIAL_FACTORS {
+                c.report(
+                    &at.key("kind"),
+                    format!("a full factorial of {} factors has too many runs", factors.len()),
+                    Some(format!(
+                        "expected at most {MAX_FULL_FACTORIAL_FACTORS} factors for a full factorial"
+                    )),
+                );
+            }
+        }
+        DesignKind::Explicit => {
+            for (name, present) in [
+                ("center-points", spec.center_points.is_some()),
+                ("replicates", spec.replicates.is_some()),
+            ] {
+                if present {
+                    c.report(
+                        &at.key(name),
+                        format!("`{name}` does not apply to an explicit design"),
+                        Some("list every run, nominal runs as rows with each factor at 0".into()),
+                    );
+                }
+            }
+            request.explicit_runs = explicit_runs(c, spec, factors, &at.key("runs"));
+        }
+    }
+    request
+}
+
+fn explicit_runs(
+    c: &mut Checker<'_>,
+    spec: &model::DesignSpec,
+    factors: &[model::FactorSpec],
+    at: &FieldPath,
+) -> Vec<ExplicitRun> {
+    let Some(rows) = &spec.runs else {
+        c.report(
+            at,
+            "an explicit design needs its runs",
+            Some("expected `runs:` as a list of `{run: ID, <factor id>: -1 | 0 | 1}`".into()),
+        );
+        return Vec::new();
+    };
+    if rows.len() < 2 || rows.len() > MAX_EXPLICIT_RUNS {
+        c.report(
+            at,
+            format!("{} run(s) listed", rows.len()),
+            Some(format!("expected between 2 and {MAX_EXPLICIT_RUNS} runs")),
+        );
+    }
+    let ids: Vec<&str> = factors.iter().map(|f| f.id.as_str()).collect();
+    let mut seen = BTreeSet::new();
+    let mut orders = BTreeSet::new();
+    let mut out = Vec::new();
+    for (i, row) in rows.iter().enumerate() {
+        let here = at.index(i);
+        let Some(id) = row.get("run").and_then(run_id) else {
+            continue; // the schema has reported it
+        };
+        if !seen.insert(id.clone()) {
+            c.report(
+                &here.key("run"),
+                format!("duplicate run id `{id}`"),
+                Some("expected each run id once".into()),
+            );
+        }
+        let order = row.get("order").and_then(Value::as_u64).map(|o| o as usize);
+        if let Some(o) = order {
+            if !orders.insert(o) {
+                c.report(
+                    &here.key("order"),
+                    format!("run order {o} is given twice"),
+                    Some("expected each position in the run order once".into()),
+                );
+            }
+        }
+        for key in row.keys() {
+            if key != "run" && key != "order" && !ids.contains(&key.as_str()) {
+                let hint = closest(key, ids.iter().copied())
+                    .map(|b| format!("did you mean `{b}`? "))
+                    .unwrap_or_default();
+                c.report(
+                    &here.key(key),
+                    format!("unknown factor `{key}`"),
+                    Some(format!("{hint}expected one of the factor ids: {}", ids.join(", "))),
+                );
+            }
+        }
+        let mut levels = Vec::with_capacity(factors.len());
+        for f in factors {
+            match row.get(&f.id).and_then(Value::as_i64) {
+                Some(v @ -1..=1) => levels.push(v as i8),
+                _ => {
+                    c.report(
+                        &here,
+                        format!("run `{id}` has no level for factor `{}`", f.id),
+                        Some("expected every factor at -1, 0 or 1".into()),
+                    );
+                }
+            }
+        }
+        if levels.len() == factors.len() {
+            let zeros = levels.iter().filter(|l| **l == 0).count();
+            if zeros != 0 && zeros != levels.len() {
+                c.report(
+                    &here,
+                    format!("run `{id}` mixes nominal (0) and ±1 levels"),
+                    Some("expected a two-level run (every factor at -1 or 1) or a nominal run (every factor at 0)".into()),
+                );
+            }
+            out.push(ExplicitRun { id, order, levels });
+        }
+    }
+    if !orders.is_empty() && orders.len() != rows.len() {
+        c.report(
+            at,
+            "`order` is given for some runs but not for all",
+            Some("expected `order` on every run or on none".into()),
+        );
+    }
+    out
+}
+
+/// The run id of a YAML value: integers keep their decimal text.
+pub fn run_id(v: &Value) -> Option<RunId> {
+    match v {
+        Value::Number(n) => n.as_i64().map(|i| RunId(i.to_string())),
+        Value::String(s) if !s.trim().is_empty() => Some(RunId(s.trim().to_string())),
+        _ => None,
+    }
+}
+
+fn responses(c: &mut Checker<'_>, file: &StudyFile, design: &DesignRequest) -> Vec<Response> {
+    let has_nominal = match design.kind {
+        DesignKind::Explicit => design
+            .explicit_runs
+            .iter()
+            .any(|r| r.levels.iter().all(|l| *l == 0)),
+        _ => design.center_points > 0,
+    };
+    let mut seen = BTreeSet::new();
+    let mut out = Vec::new();
+    for (i, r) in file.responses.iter().enumerate() {
+        let at = FieldPath::of(&["responses"]).index(i);
+        if !seen.insert(r.id.clone()) {
+            c.report(
+                &at.key("id"),
+                format!("duplicate response id `{}`", r.id),
+                Some("expected each response id once".into()),
+            );
+        }
+        if RESERVED_IDS.contains(&r.id.as_str()) {
+            c.report(
+                &at.key("id"),
+                format!("`{}` is reserved for a results column", r.id),
+                Some("expected another id".into()),
+            );
+        }
+        let percent_of = match r.percent_of {
+            Some(PercentOf::Nominal) if !has_nominal => {
+                c.report(
+                    &at.key("percent-of"),
+                    "percent effects against the nominal runs need nominal runs, and the design has none",
+                    Some("add `center-points` to the design, or use `percent-of: mean`".into()),
+                );
+                PercentOf::Mean
+            }
+            Some(p) => p,
+            None if has_nominal => PercentOf::Nominal,
+            None => PercentOf::Mean,
+        };
+        out.push(Response {
+            id: r.id.clone(),
+            name: r.name.clone(),
+            unit: r.unit.clone(),
+            percent_of,
+            decimals: r.decimals,
+        });
+    }
+    out
+}
+
+fn limits(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> Vec<EffectLimit> {
+    let mut out = Vec::new();
+    let ids: Vec<&str> = responses.iter().map(|r| r.id.as_str()).collect();
+    for (i, a) in file.acceptance.iter().enumerate() {
+        let at = FieldPath::of(&["acceptance"]).index(i);
+        let Some(response) = ids.iter().position(|id| *id == a.response) else {
+            let hint = closest(&a.response, ids.iter().copied())
+                .map(|b| format!("did you mean `{b}`? "))
+                .unwrap_or_default();
+            c.report(
+                &at.key("response"),
+                format!("unknown response `{}`", a.response),
+                Some(format!("{hint}expected one of the response ids: {}", ids.join(", "))),
+            );
+            continue;
+        };
+        let Some(limit) = a.effect_limit else {
+            c.report(
+                &at,
+                "the acceptance rule sets no limit",
+                Some("expected `effect-limit: <number>`".into()),
+            );
+            continue;
+        };
+        out.push(EffectLimit {
+            response,
+            limit,
+            unit: a.unit.unwrap_or(LimitUnit::Percent),
+            basis: a.basis.clone(),
+        });
+    }
+    out
+}
+
+fn check_results_spec(c: &mut Checker<'_>, results: &model::ResultsSpec) {
+    let at = FieldPath::of(&["results"]);
+    match (&results.file, &results.runs) {
+        (Some(_), Some(_)) => c.report(
+            &at,
+            "both `file` and `runs` are given",
+            Some("expected the results either in a CSV `file` or inline as `runs`".into()),
+        ),
+        (None, None) => c.report(
+            &at,
+            "no results are given",
+            Some("expected `file: results.csv` or inline `runs: [{run: 1, <response id>: value}, ...]`".into()),
+        ),
+        _ => {}
+    }
+}
+
+fn check_id_clashes(c: &mut Checker<'_>, file: &StudyFile) {
+    for (i, r) in file.responses.iter().enumerate() {
+        if file.factors.iter().any(|f| f.id == r.id) {
+            c.report(
+                &FieldPath::of(&["responses"]).index(i).key("id"),
+                format!("`{}` is already a factor id", r.id),
+                Some("expected response ids that differ from the factor ids (they share the results columns)".into()),
+            );
+        }
+    }
+}

@@ -1,0 +1,158 @@
+//! Reading a study file: bytes → text → YAML data → schema check → typed model → semantic checks.
+//!
+//! Each stage stops the pipeline with every problem it found, positioned in the file, so that a
+//! later stage never sees input an earlier one would have rejected.
+
+use std::path::Path;
+
+use sha2::{Digest, Sha256};
+
+use super::diagnostic::{Diagnostic, Diagnostics, FieldPath};
+use super::model::StudyFile;
+use super::{Study, check, schema};
+
+/// Largest study file accepted, in bytes (a study of the largest design is far smaller).
+pub const MAX_STUDY_BYTES: u64 = 4 * 1024 * 1024;
+
+/// Loads and checks a study file.
+pub fn load(path: &Path) -> Result<Study, Diagnostics> {
+    let file_name = path.display().to_string();
+    let bytes = read_limited(path, MAX_STUDY_BYTES, &file_name)?;
+    let text = decode(&bytes, &file_name)?;
+    let study_file = parse(&text, &file_name)?;
+    check::study(path, &file_name, &text, sha256_hex(&bytes), study_file)
+}
+
+/// Parses and schema-checks study text; the typed model on success.
+pub fn parse(text: &str, file_name: &str) -> Result<StudyFile, Diagnostics> {
+    let data: serde_json::Value = from_yaml(text, file_name)?;
+    let problems = schema::check(&data, text, file_name);
+    if !problems.is_empty() {
+        return Err(problems);
+    }
+    from_yaml::<StudyFile>(text, file_name)
+}
+
+/// Lowercase hex SHA-256 of some bytes (provenance of every input).
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    let digest = Sha256::digest(bytes);
+    digest.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+/// Reads a file, refusing one larger than `limit` before reading it into memory.
+pub fn read_limited(path: &Path, limit: u64, file_name: &str) -> Result<Vec<u8>, Diagnostics> {
+    let whole_file = |problem: String, expected: Option<String>| {
+        Diagnostics(vec![Diagnostic::field(
+            file_name,
+            &FieldPath::root(),
+            problem,
+            expected,
+        )])
+    };
+    let meta = std::fs::metadata(path).map_err(|e| whole_file(io_problem(&e), None))?;
+    if meta.is_dir() {
+        return Err(whole_file(
+            "is a folder".into(),
+            Some("expected a study file (.yaml)".into()),
+        ));
+    }
+    if meta.len() > limit {
+        return Err(whole_file(
+            format!("the file is too large ({} bytes)", meta.len()),
+            Some(format!("expected at most {limit} bytes")),
+        ));
+    }
+    std::fs::read(path).map_err(|e| whole_file(io_problem(&e), None))
+}
+
+/// A short lowercase description of an I/O error.
+pub fn io_problem(e: &std::io::Error) -> String {
+    match e.kind() {
+        std::io::ErrorKind::NotFound => "file not found".into(),
+        std::io::ErrorKind::PermissionDenied => "permission denied".into(),
+        _ => format!("cannot read the file ({e})"),
+    }
+}
+
+/// UTF-8 text from bytes, with the position of the first invalid byte; a leading byte-order
+/// mark is dropped (YAML 1.2 §5.2 allows one at the start of a stream).
+pub fn decode(bytes: &[u8], file_name: &str) -> Result<String, Diagnostics> {
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    match std::str::from_utf8(bytes) {
+        Ok(text) => Ok(text.to_string()),
+        Err(e) => {
+            let good = bytes.get(..e.valid_up_to()).unwrap_or_default();
+            let line = good.iter().filter(|b| **b == b'\n').count() + 1;
+            let column = good.iter().rev().take_while(|b| **b != b'\n').count() + 1;
+            Err(Diagnostics(vec![
+                Diagnostic::field(
+                    file_name,
+                    &FieldPath::root(),
+                    "the file is not valid UTF-8 text",
+                    Some("save it as UTF-8".to_string()),
+                )
+                .at(Some((line, column))),
+            ]))
+        }
+    }
+}
+
+fn from_yaml<T: serde::de::DeserializeOwned>(text: &str, file_name: &str) -> Result<T, Diagnostics> {
+    if let Some((line, column)) = first_tab_indent(text) {
+        return Err(Diagnostics(vec![
+            Diagnostic::field(
+                file_name,
+                &FieldPath::root(),
+                "a tab is used for indentation",
+                Some("indent with spaces (YAML does not allow tabs for indentation)".to_string()),
+            )
+            .at(Some((line, column))),
+        ]));
+    }
+    serde_saphyr::from_str::<T>(text).map_err(|e| {
+        let position = e
+            .location()
+            .map(|l| (l.line() as usize, l.column() as usize));
+        let message = e.without_snippet().to_string();
+        let message = strip_position_prefix(message.lines().next().unwrap_or_default());
+        Diagnostics(vec![
+            Diagnostic::field(file_name, &FieldPath::root(), yaml_problem(&message), None)
+                .at(position),
+        ])
+    })
+}
+
+/// saphyr reports tabs in indentation with a generic message; this names the fault plainly.
+fn first_tab_indent(text: &str) -> Option<(usize, usize)> {
+    for (n, line) in text.lines().enumerate() {
+        let indent: String = line.chars().take_while(|c| *c == ' ' || *c == '\t').collect();
+        if let Some(pos) = indent.find('\t') {
+            if line.trim_start().starts_with('#') || line.trim().is_empty() {
+                continue;
+            }
+            return Some((n + 1, pos + 1));
+        }
+    }
+    None
+}
+
+fn strip_position_prefix(message: &str) -> String {
+    let m = message.trim().trim_start_matches("error: ");
+    if let Some(rest) = m.strip_prefix("line ") {
+        if let Some((_, after)) = rest.split_once(": ") {
+            return after.to_string();
+        }
+    }
+    m.to_string()
+}
+
+fn yaml_problem(message: &str) -> String {
+    let lower = message.to_lowercase();
+    if lower.contains("duplicate") {
+        format!("{message} (each key may appear once in a mapping)")
+    } else if lower.contains("budget") || lower.contains("alias") && lower.contains("limit") {
+        format!("the YAML expands beyond the size limit: {message}")
+    } else {
+        format!("invalid YAML: {message}")
+    }
+}

@@ -1,0 +1,197 @@
+//! The study: the checked, typed form of one study file, ready for planning and analysis.
+//!
+//! `load` takes a path and gives either a `Study` whose every field has passed the schema and
+//! the semantic checks, or all the problems found, each with file, line and field.
+
+pub mod check;
+pub mod diagnostic;
+pub mod load;
+pub mod locate;
+pub mod model;
+pub mod results;
+pub mod schema;
+
+use std::path::PathBuf;
+
+pub use diagnostic::{Diagnostic, Diagnostics, FieldPath};
+pub use load::load;
+pub use model::{DesignKind, LimitUnit, NominalPlacement, PercentOf};
+
+/// A run identifier as the run sheet prints it (integers are kept as their decimal text).
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize)]
+pub struct RunId(pub String);
+
+impl std::fmt::Display for RunId {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+/// A checked study.
+#[derive(Debug, Clone)]
+pub struct Study {
+    /// The study file's path as given on the command line.
+    pub path: PathBuf,
+    /// The file name used in messages.
+    pub file_name: String,
+    /// The text of the study file (kept to locate fields in later checks).
+    pub text: String,
+    /// SHA-256 of the study file's bytes, lowercase hex.
+    pub sha256: String,
+    /// Identification.
+    pub info: model::StudyInfo,
+    /// Factors in file order.
+    pub factors: Vec<Factor>,
+    /// The planned design as requested.
+    pub design: DesignRequest,
+    /// Responses in file order.
+    pub responses: Vec<Response>,
+    /// Practical limits on effects.
+    pub limits: Vec<EffectLimit>,
+    /// Where the results come from.
+    pub results: model::ResultsSpec,
+    /// Analyst notes.
+    pub notes: Option<String>,
+}
+
+/// A factor with its two levels resolved.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Factor {
+    /// Identifier.
+    pub id: String,
+    /// Printed name.
+    pub name: String,
+    /// Unit of numeric levels.
+    pub unit: Option<String>,
+    /// The levels.
+    pub levels: Levels,
+    /// Why the range was chosen.
+    pub justification: Option<String>,
+}
+
+/// The levels of a factor.
+#[derive(Debug, Clone, serde::Serialize)]
+#[serde(tag = "type", rename_all = "kebab-case")]
+pub enum Levels {
+    /// A numeric factor: low < nominal < high (nominal may sit anywhere inside the range).
+    Numeric {
+        /// Method setting.
+        nominal: f64,
+        /// Coded −1.
+        low: f64,
+        /// Coded +1.
+        high: f64,
+    },
+    /// A categorical factor: coded −1 is the nominal level, +1 the alternative.
+    Categorical {
+        /// The nominal level (coded −1, also used in nominal runs).
+        nominal: String,
+        /// The alternative level (coded +1).
+        alternative: String,
+    },
+}
+
+impl Factor {
+    /// The setting at a coded level (−1, 0 = nominal, +1) as printed in run tables.
+    pub fn setting(&self, coded: i8) -> Setting {
+        match &self.levels {
+            Levels::Numeric { nominal, low, high } => Setting::Value(match coded {
+                c if c < 0 => *low,
+                0 => *nominal,
+                _ => *high,
+            }),
+            Levels::Categorical {
+                nominal,
+                alternative,
+            } => Setting::Level(if coded > 0 {
+                alternative.clone()
+            } else {
+                nominal.clone()
+            }),
+        }
+    }
+
+    /// True for numeric factors.
+    pub fn is_numeric(&self) -> bool {
+        matches!(self.levels, Levels::Numeric { .. })
+    }
+}
+
+/// A factor setting in real units.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+#[serde(untagged)]
+pub enum Setting {
+    /// Numeric setting.
+    Value(f64),
+    /// Categorical level.
+    Level(String),
+}
+
+/// The design section after checking.
+#[derive(Debug, Clone)]
+pub struct DesignRequest {
+    /// Kind of design.
+    pub kind: DesignKind,
+    /// Runs of an explicit design.
+    pub explicit_runs: Vec<ExplicitRun>,
+    /// Nominal runs to add (generated designs).
+    pub center_points: usize,
+    /// Where nominal runs go.
+    pub nominal_runs: NominalPlacement,
+    /// Replicates of the two-level part.
+    pub replicates: usize,
+    /// Seed for the run order, `None` for standard order.
+    pub seed: Option<u64>,
+}
+
+/// One run of an explicit design.
+#[derive(Debug, Clone)]
+pub struct ExplicitRun {
+    /// Run id.
+    pub id: RunId,
+    /// Executed position, if given.
+    pub order: Option<usize>,
+    /// Coded level per factor, in factor order.
+    pub levels: Vec<i8>,
+}
+
+/// A response after checking.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Response {
+    /// Identifier.
+    pub id: String,
+    /// Printed name.
+    pub name: String,
+    /// Unit.
+    pub unit: Option<String>,
+    /// Reference for percent effects.
+    pub percent_of: PercentOf,
+    /// Decimal places requested for the report.
+    pub decimals: Option<u32>,
+}
+
+/// A practical limit on the effects of one response.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct EffectLimit {
+    /// Index of the response.
+    pub response: usize,
+    /// Largest acceptable |effect| (or |% effect|).
+    pub limit: f64,
+    /// Percent or absolute.
+    pub unit: LimitUnit,
+    /// Where the limit comes from.
+    pub basis: Option<String>,
+}
+
+impl Study {
+    /// A diagnostic about `field` in this study file, located at the field's value.
+    pub fn diagnostic(
+        &self,
+        field: &FieldPath,
+        problem: impl Into<String>,
+        expected: impl Into<Option<String>>,
+    ) -> Diagnostic {
+        let locator = locate::Locator::new(&self.text);
+        Diagnostic::field(&self.file_name, field, problem, expected).at(locator.value(&field.0))
+    }
+}

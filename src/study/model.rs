@@ -1,0 +1,221 @@
+//! The study file as the user writes it: serde types that mirror `schemas/study.schema.json`.
+//!
+//! Every type denies unknown fields so that a typo is an error, never a silently ignored
+//! setting. Fields whose meaning depends on another field (a numeric against a categorical
+//! factor, `runs` as a count or as a list) are kept flat here and sorted out by the semantic
+//! checks in `study::check`, which can then name the offending field and its line.
+
+use std::collections::BTreeMap;
+
+use serde::{Deserialize, Serialize};
+
+/// The whole study file.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct StudyFile {
+    /// Version of the study-file format; only `1` exists.
+    pub schema: u32,
+    /// Identification of the study.
+    pub study: StudyInfo,
+    /// The operating parameters varied in the study.
+    pub factors: Vec<FactorSpec>,
+    /// How the runs are planned.
+    pub design: DesignSpec,
+    /// What is measured in each run.
+    pub responses: Vec<ResponseSpec>,
+    /// Acceptance rules declared before the data were seen.
+    #[serde(default)]
+    pub acceptance: Vec<AcceptanceSpec>,
+    /// The measured values, inline or in a CSV file.
+    pub results: ResultsSpec,
+    /// Free text by the analyst; printed literally in the report.
+    #[serde(default)]
+    pub notes: Option<String>,
+}
+
+/// Identification of the study.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct StudyInfo {
+    /// Study identifier, e.g. a protocol number.
+    pub id: String,
+    /// Title of the study.
+    pub title: String,
+    /// The analytical method studied (name and version).
+    pub method: String,
+    /// Who carried out the study.
+    pub analyst: String,
+    /// Date of the study, `YYYY-MM-DD`; also pins the PDF creation date.
+    pub date: String,
+    /// What the study has to show.
+    #[serde(default)]
+    pub objective: Option<String>,
+}
+
+/// One factor: numeric (`nominal` with `delta` or `low`/`high`) or categorical (`levels`).
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct FactorSpec {
+    /// Short identifier used in designs, results and labels.
+    pub id: String,
+    /// Name as printed in the report.
+    pub name: String,
+    /// Unit of the levels (numeric factors).
+    #[serde(default)]
+    pub unit: Option<String>,
+    /// Nominal (method) setting of a numeric factor.
+    #[serde(default)]
+    pub nominal: Option<f64>,
+    /// Symmetric half-range: levels are `nominal ± delta`.
+    #[serde(default)]
+    pub delta: Option<f64>,
+    /// Low level (with `high`), for asymmetric ranges.
+    #[serde(default)]
+    pub low: Option<f64>,
+    /// High level (with `low`).
+    #[serde(default)]
+    pub high: Option<f64>,
+    /// The two levels of a categorical factor; the first is the nominal one.
+    #[serde(default)]
+    pub levels: Option<Vec<String>>,
+    /// Why this range was chosen.
+    #[serde(default)]
+    pub justification: Option<String>,
+}
+
+/// The kinds of design the study file can ask for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum DesignKind {
+    /// All 2^k combinations, run ids in standard order.
+    FullFactorial,
+    /// A design planned elsewhere, given run by run in coded levels.
+    Explicit,
+}
+
+/// Where the nominal (centre) runs go in the run order.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum NominalPlacement {
+    /// Spread evenly: at the start, at the end and at regular intervals between (drift check).
+    Spread,
+    /// All at the start.
+    First,
+    /// All at the end.
+    Last,
+    /// Shuffled with the other runs.
+    Random,
+}
+
+/// The `randomize` setting: `false`, or `{seed: n}`.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(untagged)]
+pub enum RandomizeSpec {
+    /// `false` keeps standard order (`true` is rejected: a seed is required).
+    Flag(bool),
+    /// Shuffle with this seed.
+    Seeded(SeedSpec),
+}
+
+/// `{seed: n}`.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct SeedSpec {
+    /// Seed of the portable ChaCha20 generator.
+    pub seed: u64,
+}
+
+/// The `design` section.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct DesignSpec {
+    /// Kind of design.
+    pub kind: DesignKind,
+    /// Runs of an explicit design.
+    #[serde(default)]
+    pub runs: Option<Vec<BTreeMap<String, serde_json::Value>>>,
+    /// Number of nominal (centre) runs added.
+    #[serde(default)]
+    pub center_points: Option<u32>,
+    /// Where the nominal runs go in the run order.
+    #[serde(default)]
+    pub nominal_runs: Option<NominalPlacement>,
+    /// How many times the whole two-level design is run.
+    #[serde(default)]
+    pub replicates: Option<u32>,
+    /// Run order: `false` (standard order) or `{seed: n}`.
+    #[serde(default)]
+    pub randomize: Option<RandomizeSpec>,
+}
+
+/// Which value percent effects are taken against.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum PercentOf {
+    /// Mean of the nominal runs.
+    Nominal,
+    /// Mean of the two-level runs.
+    Mean,
+}
+
+/// One measured response.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct ResponseSpec {
+    /// Identifier used in results and acceptance rules.
+    pub id: String,
+    /// Name as printed.
+    pub name: String,
+    /// Unit of the values.
+    #[serde(default)]
+    pub unit: Option<String>,
+    /// Reference for percent effects; default `nominal` when there are nominal runs, else `mean`.
+    #[serde(default)]
+    pub percent_of: Option<PercentOf>,
+    /// Decimal places for the report; default from the data.
+    #[serde(default)]
+    pub decimals: Option<u32>,
+}
+
+/// Unit of an effect limit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum LimitUnit {
+    /// Limit on |% effect|.
+    Percent,
+    /// Limit on |effect| in the response's unit.
+    Absolute,
+}
+
+/// One acceptance rule.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct AcceptanceSpec {
+    /// The response the rule applies to.
+    pub response: String,
+    /// Largest acceptable |effect| (percent by default).
+    #[serde(default)]
+    pub effect_limit: Option<f64>,
+    /// Unit of `effect-limit`.
+    #[serde(default)]
+    pub unit: Option<LimitUnit>,
+    /// Where the limit comes from (e.g. a repeatability limit r = 2.8 s_r).
+    #[serde(default)]
+    pub basis: Option<String>,
+}
+
+/// The `results` section: a CSV file or inline runs.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct ResultsSpec {
+    /// CSV file relative to the study file: columns `run`, response ids (and optionally the
+    /// run sheet's `order` and factor columns).
+    #[serde(default)]
+    pub file: Option<String>,
+    /// Inline results: `{run: ID, <response id>: value}`.
+    #[serde(default)]
+    pub runs: Option<Vec<BTreeMap<String, serde_json::Value>>>,
+    /// Determinations per run (repeated CSV rows or inline lists); default 1.
+    #[serde(default)]
+    pub determinations: Option<u32>,
+}

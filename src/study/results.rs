@@ -1,0 +1,455 @@
+//! Reading the measured values, inline or from CSV, keyed by run id and matched to the plan.
+//!
+//! Results are matched by run id, never by position: a missing, duplicated or unknown run is an
+//! error naming the run. A CSV written by `plateau design` (with `order` and factor columns) is
+//! read back as it is, and its factor settings must agree with the plan.
+
+use std::collections::{BTreeMap, BTreeSet};
+use std::path::PathBuf;
+
+use serde_json::Value;
+
+use super::check::run_id;
+use super::diagnostic::{Diagnostic, Diagnostics, FieldPath, closest};
+use super::load::{decode, read_limited, sha256_hex};
+use super::{RunId, Setting, Study};
+use crate::design::Design;
+
+/// Largest results file accepted, in bytes.
+pub const MAX_RESULTS_BYTES: u64 = 64 * 1024 * 1024;
+
+/// The measured values of a study.
+#[derive(Debug, Clone)]
+pub struct Measurements {
+    /// Per run id, per response (in response order), the determinations.
+    pub values: BTreeMap<RunId, Vec<Vec<f64>>>,
+    /// The data file read, if any: name as given and SHA-256.
+    pub data_file: Option<DataFile>,
+}
+
+/// A data file and its checksum (provenance).
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct DataFile {
+    /// Path as written in the study file.
+    pub name: String,
+    /// SHA-256 of its bytes.
+    pub sha256: String,
+}
+
+/// Reads the results of `study` for the runs of `design`.
+pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics> {
+    let determinations = study.results.determinations.unwrap_or(1) as usize;
+    let (rows, data_file) = match (&study.results.file, &study.results.runs) {
+        (Some(file), _) => {
+            let (rows, data) = csv_rows(study, design, file)?;
+            (rows, Some(data))
+        }
+        (None, Some(runs)) => (inline_rows(study, runs)?, None),
+        (None, None) => (Vec::new(), None),
+    };
+    let planned: BTreeSet<&RunId> = design.runs.iter().map(|r| &r.id).collect();
+    let mut problems = Diagnostics::default();
+    let mut values: BTreeMap<RunId, Vec<Vec<f64>>> = BTreeMap::new();
+    for row in rows {
+        if !planned.contains(&row.run) {
+            problems.push(row.at.diagnostic(
+                format!("results for run `{}`, which the design does not have", row.run),
+                Some(format!("expected one of the planned runs {}", run_range(design))),
+            ));
+            continue;
+        }
+        let entry = values
+            .entry(row.run.clone())
+            .or_insert_with(|| vec![Vec::new(); study.responses.len()]);
+        let already = entry.first().map_or(0, Vec::len);
+        if already + row.values.first().map_or(0, Vec::len) > determinations {
+            let expected = if determinations == 1 {
+                "expected one row per run (declare `determinations: n` under `results` for replicate determinations)".to_string()
+            } else {
+                format!("expected {determinations} determinations per run")
+            };
+            problems.push(row.at.diagnostic(
+                format!("run `{}` has more results than declared", row.run),
+                Some(expected),
+            ));
+            continue;
+        }
+        for (slot, new) in entry.iter_mut().zip(row.values) {
+            slot.extend(new);
+        }
+    }
+    for run in &design.runs {
+        match values.get(&run.id) {
+            None => problems.push(Locus::results(study).diagnostic(
+                format!("no results for run `{}`", run.id),
+                Some("expected a result for every planned run".into()),
+            )),
+            Some(per_response) => {
+                for (r, vals) in study.responses.iter().zip(per_response) {
+                    if vals.len() != determinations {
+                        problems.push(Locus::results(study).diagnostic(
+                            format!(
+                                "run `{}` has {} determination(s) of `{}`",
+                                run.id,
+                                vals.len(),
+                                r.id
+                            ),
+                            Some(format!("expected {determinations}, as declared")),
+                        ));
+                    }
+                }
+            }
+        }
+    }
+    if !problems.is_empty() {
+        return Err(problems);
+    }
+    Ok(Measurements { values, data_file })
+}
+
+fn run_range(design: &Design) -> String {
+    match (design.runs.first(), design.runs.last()) {
+        (Some(a), Some(b)) if design.runs.len() > 4 => format!("({} ... {})", a.id, b.id),
+        _ => format!(
+            "({})",
+            design
+                .runs
+                .iter()
+                .map(|r| r.id.0.as_str())
+                .collect::<Vec<_>>()
+                .join(", ")
+        ),
+    }
+}
+
+/// Where a result came from, for messages.
+struct Locus {
+    file: String,
+    position: Option<(usize, usize)>,
+    field: String,
+}
+
+impl Locus {
+    fn results(study: &Study) -> Self {
+        let field = FieldPath::of(&["results"]);
+        let d = study.diagnostic(&field, "", None);
+        Self {
+            file: study.file_name.clone(),
+            position: d.line.zip(d.column),
+            field: field.to_string(),
+        }
+    }
+
+    fn diagnostic(&self, problem: String, expected: Option<String>) -> Diagnostic {
+        Diagnostic {
+            file: self.file.clone(),
+            line: self.position.map(|p| p.0),
+            column: self.position.map(|p| p.1),
+            field: self.field.clone(),
+            problem,
+            expected,
+        }
+    }
+}
+
+struct Row {
+    run: RunId,
+    values: Vec<Vec<f64>>,
+    at: Locus,
+}
+
+fn inline_rows(
+    study: &Study,
+    runs: &[BTreeMap<String, Value>],
+) -> Result<Vec<Row>, Diagnostics> {
+    let ids: Vec<&str> = study.responses.iter().map(|r| r.id.as_str()).collect();
+    let mut problems = Diagnostics::default();
+    let mut rows = Vec::new();
+    for (i, entry) in runs.iter().enumerate() {
+        let here = FieldPath::of(&["results", "runs"]).index(i);
+        let Some(run) = entry.get("run").and_then(run_id) else {
+            problems.push(study.diagnostic(&here.key("run"), "missing run id", None));
+            continue;
+        };
+        for key in entry.keys() {
+            if key != "run" && !ids.contains(&key.as_str()) {
+                let hint = closest(key, ids.iter().copied())
+                    .map(|b| format!("did you mean `{b}`? "))
+                    .unwrap_or_default();
+                problems.push(study.diagnostic(
+                    &here.key(key),
+                    format!("unknown response `{key}`"),
+                    Some(format!("{hint}expected one of the response ids: {}", ids.join(", "))),
+                ));
+            }
+        }
+        let mut values = Vec::new();
+        for id in &ids {
+            let field = here.key(id);
+            let vals: Option<Vec<f64>> = match entry.get(*id) {
+                Some(Value::Number(n)) => n.as_f64().map(|v| vec![v]),
+                Some(Value::Array(items)) => items.iter().map(Value::as_f64).collect(),
+                _ => None,
+            };
+            match vals {
+                Some(v) if v.iter().all(|x| x.is_finite()) => values.push(v),
+                Some(_) => problems.push(study.diagnostic(
+                    &field,
+                    "the value is not a finite number",
+                    Some("expected a finite number".into()),
+                )),
+                None => problems.push(study.diagnostic(
+                    &field,
+                    format!("run `{run}` has no value for `{id}`"),
+                    Some("expected a number (or a list of numbers for several determinations)".into()),
+                )),
+            }
+        }
+        let d = study.diagnostic(&here.key("run"), "", None);
+        rows.push(Row {
+            run,
+            values,
+            at: Locus {
+                file: study.file_name.clone(),
+                position: d.line.zip(d.column),
+                field: here.key("run").to_string(),
+            },
+        });
+    }
+    if problems.is_empty() {
+        Ok(rows)
+    } else {
+        Err(problems.sorted())
+    }
+}
+
+fn csv_rows(
+    study: &Study,
+    design: &Design,
+    file: &str,
+) -> Result<(Vec<Row>, DataFile), Diagnostics> {
+    let base = study
+        .path
+        .parent()
+        .map(PathBuf::from)
+        .unwrap_or_else(|| PathBuf::from("."));
+    let path = base.join(file);
+    let name = path.display().to_string();
+    let one = |line: Option<usize>, field: &str, problem: String, expected: Option<String>| Diagnostic {
+        file: name.clone(),
+        line,
+        column: None,
+        field: field.to_string(),
+        problem,
+        expected,
+    };
+    let bytes = match read_limited(&path, MAX_RESULTS_BYTES, &name) {
+        Ok(b) => b,
+        Err(mut d) => {
+            // Name the study field that points at the missing file as well.
+            let field = FieldPath::of(&["results", "file"]);
+            let pointer = study.diagnostic(
+                &field,
+                format!("the results file `{file}` cannot be read"),
+                Some(format!("expected a CSV file at {name}")),
+            );
+            d.0.insert(0, pointer);
+            return Err(d);
+        }
+    };
+    let text = decode(&bytes, &name)?;
+    let data = DataFile {
+        name: file.to_string(),
+        sha256: sha256_hex(&bytes),
+    };
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .flexible(false)
+        .trim(csv::Trim::All)
+        .from_reader(text.as_bytes());
+    let header: Vec<String> = match reader.headers() {
+        Ok(h) => h.iter().map(str::to_string).collect(),
+        Err(e) => return Err(Diagnostics(vec![one(Some(1), "", format!("cannot read the CSV header ({e})"), None)])),
+    };
+    let response_ids: Vec<&str> = study.responses.iter().map(|r| r.id.as_str()).collect();
+    let factor_ids: Vec<&str> = study.factors.iter().map(|f| f.id.as_str()).collect();
+    let mut problems = Diagnostics::default();
+    if header.len() == 1 && header.first().is_some_and(|h| h.contains(';')) {
+        return Err(Diagnostics(vec![one(
+            Some(1),
+            "",
+            "the header has one column containing `;`: the file seems to be separated by semicolons".into(),
+            Some("expected comma-separated values (`run,assay,...`) with `.` as the decimal separator".into()),
+        )]));
+    }
+    let Some(run_col) = header.iter().position(|h| h == "run") else {
+        return Err(Diagnostics(vec![one(
+            Some(1),
+            "run",
+            "the header has no `run` column".into(),
+            Some(format!(
+                "expected a header such as `run,{}`",
+                response_ids.join(",")
+            )),
+        )]));
+    };
+    let mut seen = BTreeSet::new();
+    for h in &header {
+        if !seen.insert(h.as_str()) {
+            problems.push(one(Some(1), h, format!("column `{h}` appears twice"), Some("expected each column once".into())));
+        }
+        if h != "run" && h != "order" && !response_ids.contains(&h.as_str()) && !factor_ids.contains(&h.as_str()) {
+            let all: Vec<&str> = response_ids.iter().chain(factor_ids.iter()).copied().collect();
+            let hint = closest(h, all.iter().copied())
+                .map(|b| format!("did you mean `{b}`? "))
+                .unwrap_or_default();
+            problems.push(one(
+                Some(1),
+                h,
+                format!("unknown column `{h}`"),
+                Some(format!("{hint}expected `run`, the response ids ({}), and optionally `order` and the factor ids", response_ids.join(", "))),
+            ));
+        }
+    }
+    for id in &response_ids {
+        if !header.iter().any(|h| h == id) {
+            problems.push(one(
+                Some(1),
+                id,
+                format!("the header has no column for response `{id}`"),
+                Some(format!("expected a column `{id}`")),
+            ));
+        }
+    }
+    if !problems.is_empty() {
+        return Err(problems);
+    }
+    let planned: BTreeMap<&RunId, &crate::design::PlannedRun> =
+        design.runs.iter().map(|r| (&r.id, r)).collect();
+    let mut rows = Vec::new();
+    for record in reader.records() {
+        let record = match record {
+            Ok(r) => r,
+            Err(e) => {
+                let line = e.position().map(|p| p.line() as usize);
+                problems.push(one(line, "", format!("malformed CSV row ({e})"), Some("expected the same number of columns as the header".into())));
+                continue;
+            }
+        };
+        let line = record.position().map(|p| p.line() as usize);
+        if record.iter().all(str::is_empty) {
+            continue; // a blank line, e.g. at the end of the file
+        }
+        let run_text = record.get(run_col).unwrap_or_default();
+        if run_text.is_empty() {
+            problems.push(one(line, "run", "empty run id".into(), Some("expected the run id of the planned run".into())));
+            continue;
+        }
+        let run = RunId(run_text.to_string());
+        let mut values = Vec::new();
+        for id in &response_ids {
+            let col = header.iter().position(|h| h == id).unwrap_or(0);
+            let cell = record.get(col).unwrap_or_default();
+            match parse_number(cell) {
+                Ok(v) => values.push(vec![v]),
+                Err(why) => problems.push(one(line, id, format!("run `{run}`: {why}"), Some(number_hint(cell)))),
+            }
+        }
+        if let Some(planned_run) = planned.get(&run) {
+            for (j, f) in study.factors.iter().enumerate() {
+                let Some(col) = header.iter().position(|h| h == &f.id) else { continue };
+                let cell = record.get(col).unwrap_or_default();
+                let expected = planned_run
+                    .coded
+                    .get(j)
+                    .map(|c| f.setting(*c))
+                    .unwrap_or(Setting::Level(String::new()));
+                if !setting_matches(cell, &expected, planned_run.coded.get(j).copied()) {
+                    problems.push(one(
+                        line,
+                        &f.id,
+                        format!("run `{run}`: setting `{cell}` differs from the plan"),
+                        Some(format!("expected {} as planned", setting_text(&expected))),
+                    ));
+                }
+            }
+        }
+        rows.push(Row {
+            run,
+            values,
+            at: Locus {
+                file: name.clone(),
+                position: line.map(|l| (l, 1)),
+                field: "run".into(),
+            },
+        });
+    }
+    if problems.is_empty() {
+        Ok((rows, data))
+    } else {
+        Err(problems)
+    }
+}
+
+fn setting_text(s: &Setting) -> String {
+    match s {
+        Setting::Value(v) => format!("{v}"),
+        Setting::Level(l) => format!("`{l}`"),
+    }
+}
+
+fn setting_matches(cell: &str, expected: &Setting, coded: Option<i8>) -> bool {
+    match expected {
+        Setting::Value(v) => match cell.parse::<f64>() {
+            // Either real units or coded levels (the run sheet's --coded form).
+            Ok(x) => (x - v).abs() <= 1e-9 * v.abs().max(1.0) || coded.is_some_and(|c| x == f64::from(c)),
+            Err(_) => false,
+        },
+        Setting::Level(l) => cell == l || coded.is_some_and(|c| cell.parse::<i8>() == Ok(c)),
+    }
+}
+
+/// A finite decimal number in the plain form `[-]digits[.digits][e[-]digits]`.
+fn parse_number(cell: &str) -> Result<f64, String> {
+    if cell.is_empty() {
+        return Err("the value is empty".into());
+    }
+    let plain = cell
+        .chars()
+        .all(|c| c.is_ascii_digit() || matches!(c, '.' | '-' | '+' | 'e' | 'E'));
+    if !plain {
+        return Err(format!("`{cell}` is not a number"));
+    }
+    match cell.parse::<f64>() {
+        Ok(v) if v.is_finite() => Ok(v),
+        Ok(_) => Err(format!("`{cell}` is not a finite number")),
+        Err(_) => Err(format!("`{cell}` is not a number")),
+    }
+}
+
+fn number_hint(cell: &str) -> String {
+    if cell.contains(',') {
+        "expected `.` as the decimal separator (e.g. 99.5), with columns separated by commas".into()
+    } else if cell.chars().any(|c| c.is_alphabetic() || c == '%') && cell.chars().any(|c| c.is_ascii_digit()) {
+        "expected the number alone, without a unit (units belong in the response definition)".into()
+    } else {
+        "expected a finite decimal number such as 99.5".into()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn plain_numbers_parse_and_others_are_refused() {
+        assert_eq!(parse_number("99.5"), Ok(99.5));
+        assert_eq!(parse_number("-1e-3"), Ok(-0.001));
+        assert!(parse_number("99,5").is_err());
+        assert!(parse_number("99.5 %").is_err());
+        assert!(parse_number("inf").is_err());
+        assert!(parse_number("1e999").is_err());
+        assert!(parse_number("NaN").is_err());
+        assert!(parse_number("").is_err());
+    }
+}

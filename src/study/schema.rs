@@ -1,0 +1,318 @@
+//! The JSON Schema check that runs before typed loading.
+//!
+//! The schema in `schemas/study.schema.json` is the published contract (editors validate against
+//! it while the user types); checking it first means the user gets the same verdict from the
+//! editor and from plateau. Its raw messages are rewritten into the project's one message style.
+
+use std::sync::OnceLock;
+
+use jsonschema::error::ValidationErrorKind;
+use jsonschema::paths::LocationSegment;
+use serde_json::Value;
+
+use super::diagnostic::{Diagnostic, Diagnostics, FieldPath, Segment, closest};
+use super::locate::Locator;
+
+/// The study-file schema as shipped in `schemas/`.
+pub const SCHEMA_TEXT: &str = include_str!("../../schemas/study.schema.json");
+
+fn schema() -> &'static Value {
+    static SCHEMA: OnceLock<Value> = OnceLock::new();
+    SCHEMA.get_or_init(|| serde_json::from_str(SCHEMA_TEXT).unwrap_or(Value::Null))
+}
+
+fn validator() -> Option<&'static jsonschema::Validator> {
+    static VALIDATOR: OnceLock<Option<jsonschema::Validator>> = OnceLock::new();
+    VALIDATOR
+        .get_or_init(|| jsonschema::validator_for(schema()).ok())
+        .as_ref()
+}
+
+/// Checks `instance` (the study file read as plain data) against the schema.
+pub fn check(instance: &Value, text: &str, file_name: &str) -> Diagnostics {
+    let mut out = Diagnostics::default();
+    let Some(validator) = validator() else {
+        out.push(Diagnostic::field(
+            file_name,
+            &FieldPath::root(),
+            "internal error: the built-in study schema does not compile",
+            None,
+        ));
+        return out;
+    };
+    let locator = Locator::new(text);
+    for error in validator.iter_errors(instance) {
+        let path = FieldPath(
+            error
+                .instance_path()
+                .segments()
+                .map(|s| match s {
+                    LocationSegment::Property(p) => Segment::Key(p.to_string()),
+                    LocationSegment::Index(i) => Segment::Key(i.to_string()),
+                })
+                .collect(),
+        );
+        // Indices and numeric keys look the same in a pointer; decide by the data itself.
+        let path = resolve_indices(instance, path);
+        let schema_path = error.schema_path().as_str().to_string();
+        for d in describe(error.kind(), &path, &schema_path, error.instance(), file_name) {
+            let position = match &d.1 {
+                Some(key) => locator.key(&path.0, key),
+                None => locator.value(&path.0),
+            };
+            out.push(d.0.at(position));
+        }
+    }
+    out.sorted()
+}
+
+fn resolve_indices(instance: &Value, path: FieldPath) -> FieldPath {
+    let mut node = Some(instance);
+    let mut segments = Vec::with_capacity(path.0.len());
+    for segment in path.0 {
+        let Segment::Key(key) = segment else {
+            segments.push(segment);
+            continue;
+        };
+        match node {
+            Some(Value::Array(items)) => {
+                let index = key.parse::<usize>().unwrap_or(usize::MAX);
+                node = items.get(index);
+                segments.push(Segment::Index(index));
+            }
+            Some(Value::Object(map)) => {
+                node = map.get(&key);
+                segments.push(Segment::Key(key));
+            }
+            _ => {
+                node = None;
+                segments.push(Segment::Key(key));
+            }
+        }
+    }
+    FieldPath(segments)
+}
+
+/// The property names the schema allows at `schema_path` (which ends in
+/// `/additionalProperties`), for suggestions.
+fn allowed_properties(schema_path: &str) -> Vec<String> {
+    let parent = schema_path.trim_end_matches("/additionalProperties");
+    let mut node = schema();
+    for raw in parent.split('/').skip(1) {
+        let key = raw.replace("~1", "/").replace("~0", "~");
+        if key == "$ref" {
+            continue; // already followed below
+        }
+        node = match node.get(&key) {
+            Some(n) => n,
+            None => return Vec::new(),
+        };
+        if let Some(target) = node.get("$ref").and_then(Value::as_str) {
+            node = resolve_ref(target).unwrap_or(node);
+        }
+    }
+    node.get("properties")
+        .and_then(Value::as_object)
+        .map(|m| m.keys().cloned().collect())
+        .unwrap_or_default()
+}
+
+fn resolve_ref(target: &str) -> Option<&'static Value> {
+    let mut node = schema();
+    for raw in target.trim_start_matches('#').split('/').skip(1) {
+        node = node.get(raw)?;
+    }
+    Some(node)
+}
+
+fn type_name(v: &Value) -> &'static str {
+    match v {
+        Value::Null => "nothing (null)",
+        Value::Bool(_) => "a boolean",
+        Value::Number(_) => "a number",
+        Value::String(_) => "a string",
+        Value::Array(_) => "a list",
+        Value::Object(_) => "a mapping",
+    }
+}
+
+fn shown(v: &Value) -> String {
+    match v {
+        Value::String(s) => format!("\"{s}\""),
+        Value::Array(_) => "a list".to_string(),
+        Value::Object(_) => "a mapping".to_string(),
+        other => other.to_string(),
+    }
+}
+
+fn options_text(options: &Value) -> String {
+    match options {
+        Value::Array(items) => items
+            .iter()
+            .map(|v| match v {
+                Value::String(s) => s.clone(),
+                other => other.to_string(),
+            })
+            .collect::<Vec<_>>()
+            .join(", "),
+        other => other.to_string(),
+    }
+}
+
+/// One or more diagnostics for a schema error; the second element names an unknown key whose
+/// own position should be reported.
+fn describe(
+    kind: &ValidationErrorKind,
+    path: &FieldPath,
+    schema_path: &str,
+    instance: &Value,
+    file: &str,
+) -> Vec<(Diagnostic, Option<String>)> {
+    let plain = |problem: String, expected: Option<String>| {
+        vec![(Diagnostic::field(file, path, problem, expected), None)]
+    };
+    match kind {
+        ValidationErrorKind::AdditionalProperties { unexpected } => {
+            let allowed = allowed_properties(schema_path);
+            unexpected
+                .iter()
+                .map(|name| {
+                    let field = path.key(name);
+                    let expected = if allowed.is_empty() {
+                        // An open mapping whose values failed, e.g. a factor level in an
+                        // explicit run; the value check reports it.
+                        None
+                    } else {
+                        let mut text = String::new();
+                        if let Some(best) = closest(name, allowed.iter().map(String::as_str)) {
+                            text.push_str(&format!("did you mean `{best}`? "));
+                        }
+                        text.push_str(&format!("valid fields here: {}", allowed.join(", ")));
+                        Some(text)
+                    };
+                    (
+                        Diagnostic::field(file, &field, format!("unknown field `{name}`"), expected),
+                        Some(name.clone()),
+                    )
+                })
+                .collect()
+        }
+        ValidationErrorKind::Required { property } => {
+            let name = property.as_str().unwrap_or("?");
+            vec![(
+                Diagnostic::field(
+                    file,
+                    &path.key(name),
+                    format!("missing required field `{name}`"),
+                    None,
+                ),
+                None,
+            )]
+        }
+        ValidationErrorKind::Type { kind } => {
+            let expected = match kind {
+                jsonschema::error::TypeKind::Single(t) => format!("expected {}", json_type(&t.to_string())),
+                jsonschema::error::TypeKind::Multiple(ts) => format!(
+                    "expected {}",
+                    ts.iter()
+                        .map(|t| json_type(&t.to_string()))
+                        .collect::<Vec<_>>()
+                        .join(" or ")
+                ),
+            };
+            plain(
+                format!("wrong type: found {} {}", type_name(instance), shown(instance)),
+                Some(expected),
+            )
+        }
+        ValidationErrorKind::Enum { options } => plain(
+            format!("{} is not a valid value", shown(instance)),
+            Some(format!("expected one of {}", options_text(options))),
+        ),
+        ValidationErrorKind::Constant { expected_value } => plain(
+            format!("{} is not a valid value", shown(instance)),
+            Some(format!("expected {}", expected_value)),
+        ),
+        ValidationErrorKind::Minimum { limit } => plain(
+            format!("{} is too small", shown(instance)),
+            Some(format!("expected at least {limit}")),
+        ),
+        ValidationErrorKind::ExclusiveMinimum { limit } => plain(
+            format!("{} is too small", shown(instance)),
+            Some(format!("expected a value greater than {limit}")),
+        ),
+        ValidationErrorKind::Maximum { limit } => plain(
+            format!("{} is too large", shown(instance)),
+            Some(format!("expected at most {limit}")),
+        ),
+        ValidationErrorKind::MinItems { limit } => plain(
+            "the list is too short".to_string(),
+            Some(format!("expected at least {limit} item(s)")),
+        ),
+        ValidationErrorKind::MinLength { .. } => {
+            plain("the text is empty".to_string(), Some("expected a non-empty text".into()))
+        }
+        ValidationErrorKind::MaxLength { limit } => plain(
+            "the text is too long".to_string(),
+            Some(format!("expected at most {limit} characters")),
+        ),
+        ValidationErrorKind::Pattern { pattern } => plain(
+            format!("{} is not in the expected form", shown(instance)),
+            Some(pattern_hint(pattern)),
+        ),
+        ValidationErrorKind::OneOfNotValid { .. } | ValidationErrorKind::AnyOf { .. } => {
+            let expected = if schema_path.contains("randomize") {
+                "expected false or {seed: <non-negative integer>}"
+            } else if schema_path.contains("results") {
+                "expected a number or a list of numbers"
+            } else {
+                "see the schema for the accepted forms"
+            };
+            plain(
+                format!("{} is not an accepted form", shown(instance)),
+                Some(expected.to_string()),
+            )
+        }
+        other => plain(format!("{other:?}"), None),
+    }
+}
+
+fn json_type(t: &str) -> String {
+    match t {
+        "integer" => "a whole number".into(),
+        "number" => "a number".into(),
+        "string" => "a text".into(),
+        "array" => "a list".into(),
+        "object" => "a mapping".into(),
+        "boolean" => "true or false".into(),
+        other => other.into(),
+    }
+}
+
+fn pattern_hint(pattern: &str) -> String {
+    if pattern.contains("[0-9]{4}") {
+        "expected a date as YYYY-MM-DD".into()
+    } else if pattern.starts_with("^[A-Za-z]") {
+        "expected an identifier: a letter, then letters, digits, `_` or `-` (at most 40)".into()
+    } else {
+        format!("expected text matching {pattern}")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_shipped_schema_compiles() {
+        assert!(validator().is_some());
+    }
+
+    #[test]
+    fn allowed_properties_follow_refs_for_suggestions() {
+        let names = allowed_properties("/properties/study/additionalProperties");
+        assert!(names.contains(&"analyst".to_string()), "{names:?}");
+        let names = allowed_properties("/properties/factors/items/additionalProperties");
+        assert!(names.contains(&"nominal".to_string()), "{names:?}");
+    }
+}
