@@ -3,7 +3,13 @@
 //! Templates only format; nothing is computed in them. Numbers are kept at full precision here
 //! and rounded only when the report prints them.
 
+pub mod anova;
+pub mod criterion;
+pub mod curvature;
+pub mod decision;
+pub mod drift;
 pub mod effects;
+pub mod quantile;
 pub mod text;
 
 use serde::Serialize;

@@ -4,7 +4,12 @@
 //! and every contrast column the runs can estimate, each with its alias chain, so the analysis
 //! never has to guess what a column means.
 
+pub mod aliasing;
+pub mod catalogue;
+pub mod fraction;
 pub mod order;
+pub mod plackett_burman;
+pub mod word;
 
 use crate::study::{
     DesignKind, Diagnostic, Diagnostics, FieldPath, RunId, Study,

@@ -1,0 +1,332 @@
+//! Response against run order: shows drift of the instrument or the sample over the
+//! sequence, which would bias effects of factors that change late in the run list, and
+//! lets the nominal (centre) runs be checked for stability.
+
+use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, VPos};
+
+use super::style::{self, ACCENT, INK, LABEL_PX, LegendEntry, Marker, Mesh, SECOND};
+use super::{PlotError, RefLine};
+
+const FIGURE: &str = "run order";
+
+/// One run.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Run {
+    /// Position in the executed sequence (1, 2, ...).
+    pub order: u32,
+    /// Measured response.
+    pub response: f64,
+    /// Whether this is a nominal (centre-point) run.
+    pub nominal: bool,
+}
+
+/// A straight drift line `response = intercept + slope · order`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Drift {
+    /// Response at order 0.
+    pub intercept: f64,
+    /// Change of response per run.
+    pub slope: f64,
+}
+
+/// Input of [`run_order`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct RunOrder {
+    /// All runs, in any order.
+    pub runs: Vec<Run>,
+    /// Optional fitted drift line, drawn across the run range.
+    pub drift: Option<Drift>,
+    /// Optional horizontal limits (e.g. specification min and max), labelled.
+    pub limits: Vec<RefLine>,
+    /// x axis title, e.g. "run order".
+    pub x_title: String,
+    /// y axis title, e.g. "assay (% label claim)".
+    pub y_title: String,
+    /// Legend text for design runs, e.g. "design run".
+    pub run_label: String,
+    /// Legend text for nominal runs, e.g. "nominal run".
+    pub nominal_label: String,
+    /// Legend text for the drift line, e.g. "drift (least squares)".
+    pub drift_label: String,
+}
+
+/// Draws every run at (order, response): design runs as dark circles, nominal runs as
+/// blue-green diamonds joined in sequence, the drift line dashed and the limits as
+/// accent-coloured dashed lines labelled "name = value" at their right end.
+///
+/// The drift line is the caller's (e.g. a least-squares fit to the nominal runs, a
+/// common check for time trends, Vander Heyden et al. 2001, J. Pharm. Biomed. Anal. 24,
+/// 723–753).
+///
+/// Errors: no runs, a non-finite response, drift or limit.
+pub fn run_order(input: &RunOrder) -> Result<String, PlotError> {
+    if input.runs.is_empty() {
+        return Err(PlotError::Empty {
+            figure: FIGURE,
+            what: "runs",
+        });
+    }
+    for (i, r) in input.runs.iter().enumerate() {
+        style::finite(FIGURE, &format!("runs[{i}].response"), r.response)?;
+    }
+    if let Some(d) = &input.drift {
+        style::finite(FIGURE, "drift.intercept", d.intercept)?;
+        style::finite(FIGURE, "drift.slope", d.slope)?;
+    }
+    for (i, l) in input.limits.iter().enumerate() {
+        style::finite(FIGURE, &format!("limits[{i}].value"), l.value)?;
+    }
+
+    let mut runs = input.runs.clone();
+    runs.sort_by_key(|r| r.order);
+    let first = runs.first().map_or(0, |r| r.order);
+    let last = runs.last().map_or(0, |r| r.order);
+    let (x_lo, x_hi) = (f64::from(first) - 0.6, f64::from(last) + 0.6);
+
+    let drift_at = |d: &Drift, x: f64| d.intercept + d.slope * x;
+    let mut lo = f64::INFINITY;
+    let mut hi = f64::NEG_INFINITY;
+    let mut include = |v: f64| {
+        lo = lo.min(v);
+        hi = hi.max(v);
+    };
+    runs.iter().for_each(|r| include(r.response));
+    input.limits.iter().for_each(|l| include(l.value));
+    if let Some(d) = &input.drift {
+        include(drift_at(d, f64::from(first)));
+        include(drift_at(d, f64::from(last)));
+    }
+    if !lo.is_finite() || !hi.is_finite() {
+        return Err(PlotError::Invalid {
+            figure: FIGURE,
+            reason: "the drift line leaves the representable range".to_string(),
+        });
+    }
+    let (y_lo, y_hi) = style::padded(lo, hi, 0.1);
+    let range_error = || PlotError::Invalid {
+        figure: FIGURE,
+        reason: "the values span no usable axis range".to_string(),
+    };
+    let x_ticks = style::nice_ticks(x_lo, x_hi, 10, 1.0).ok_or_else(range_error)?;
+    let y_ticks = style::nice_ticks(y_lo, y_hi, 5, 0.0).ok_or_else(range_error)?;
+    let x_format = |v: &f64| style::format_number(*v, 0);
+    let y_format = |v: &f64| style::format_number(*v, y_ticks.decimals);
+
+    let has_nominal = runs.iter().any(|r| r.nominal);
+    let has_design = runs.iter().any(|r| !r.nominal);
+    let mut legend = Vec::new();
+    if has_design {
+        legend.push(LegendEntry {
+            text: style::clean(&input.run_label),
+            color: INK,
+            marker: Marker::Circle,
+            line: None,
+        });
+    }
+    if has_nominal {
+        legend.push(LegendEntry {
+            text: style::clean(&input.nominal_label),
+            color: SECOND,
+            marker: Marker::Diamond,
+            line: Some(false),
+        });
+    }
+    if input.drift.is_some() {
+        legend.push(LegendEntry {
+            text: style::clean(&input.drift_label),
+            color: SECOND,
+            marker: Marker::None,
+            line: Some(true),
+        });
+    }
+
+    let mut buf = String::new();
+    {
+        let root =
+            SVGBackend::with_string(&mut buf, (style::WIDTH, style::HEIGHT)).into_drawing_area();
+        root.fill(&style::PAPER).map_err(style::backend(FIGURE))?;
+        let mut chart = ChartBuilder::on(&root)
+            .margin_top(36)
+            .margin_left(8)
+            .margin_right(18)
+            .margin_bottom(8)
+            .x_label_area_size(48)
+            .y_label_area_size(64)
+            .build_cartesian_2d(
+                style::axis(x_lo, x_hi, x_ticks.values.clone()),
+                style::axis(y_lo, y_hi, y_ticks.values.clone()),
+            )
+            .map_err(style::backend(FIGURE))?;
+        style::draw_mesh(
+            &mut chart,
+            &Mesh {
+                x_format: &x_format,
+                y_format: &y_format,
+                x_title: input.x_title.clone(),
+                y_title: input.y_title.clone(),
+                x_grid: true,
+                y_grid: true,
+            },
+            FIGURE,
+        )?;
+        let (left, _) = chart.backend_coord(&(x_lo, y_lo));
+        let (right, _) = chart.backend_coord(&(x_hi, y_lo));
+
+        for l in &input.limits {
+            let a = chart.backend_coord(&(x_lo, l.value));
+            let b = chart.backend_coord(&(x_hi, l.value));
+            style::draw_line(&root, &[a, b], ACCENT, 2, true, FIGURE)?;
+            let ts = style::anchored(LABEL_PX, ACCENT, HPos::Right, VPos::Bottom);
+            let text = style::line_label(&l.name, l.value);
+            style::draw_text(&root, &text, (b.0 - 4, b.1 - 4), &ts, FIGURE)?;
+        }
+        if let Some(d) = &input.drift {
+            let a = chart.backend_coord(&(f64::from(first), drift_at(d, f64::from(first))));
+            let b = chart.backend_coord(&(f64::from(last), drift_at(d, f64::from(last))));
+            style::draw_line(&root, &[a, b], SECOND, 2, true, FIGURE)?;
+        }
+        let nominal: Vec<(i32, i32)> = runs
+            .iter()
+            .filter(|r| r.nominal)
+            .map(|r| chart.backend_coord(&(f64::from(r.order), r.response)))
+            .collect();
+        if nominal.len() > 1 {
+            style::draw_line(&root, &nominal, SECOND, 1, false, FIGURE)?;
+        }
+        for r in &runs {
+            let c = chart.backend_coord(&(f64::from(r.order), r.response));
+            let (marker, color) = if r.nominal {
+                (Marker::Diamond, SECOND)
+            } else {
+                (Marker::Circle, INK)
+            };
+            style::draw_marker(&root, c, marker, color, FIGURE)?;
+        }
+
+        let width = style::legend_width(&legend);
+        let x = ((left + right) / 2 - width / 2).max(8);
+        style::draw_legend(&root, x, 16, &legend, FIGURE)?;
+        root.present().map_err(style::backend(FIGURE))?;
+    }
+    Ok(style::finish(buf))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::plot::testutil::{assert_clean_svg, preview};
+
+    /// Invented demo: 12 design runs with a nominal run before, between and after.
+    fn demo() -> RunOrder {
+        let responses = [
+            99.8, 100.3, 99.1, 100.6, 99.5, 99.9, 100.8, 99.2, 99.7, 100.1, 99.4, 100.5, 99.6,
+            100.0, 99.3,
+        ];
+        let nominal = [1, 8, 15];
+        RunOrder {
+            runs: responses
+                .iter()
+                .enumerate()
+                .map(|(i, v)| Run {
+                    order: i as u32 + 1,
+                    response: *v,
+                    nominal: nominal.contains(&(i + 1)),
+                })
+                .collect(),
+            drift: Some(Drift {
+                intercept: 99.95,
+                slope: -0.03,
+            }),
+            limits: vec![
+                RefLine {
+                    name: "min".into(),
+                    value: 98.0,
+                },
+                RefLine {
+                    name: "max".into(),
+                    value: 102.0,
+                },
+            ],
+            x_title: "run order".into(),
+            y_title: "assay (% label claim)".into(),
+            run_label: "design run".into(),
+            nominal_label: "nominal run".into(),
+            drift_label: "drift".into(),
+        }
+    }
+
+    #[test]
+    fn run_order_is_clean_svg() {
+        let svg = run_order(&demo()).unwrap();
+        preview("run_order", &svg);
+        assert_clean_svg(&svg);
+    }
+
+    #[test]
+    fn run_order_shows_legend_and_limit_labels() {
+        let svg = run_order(&demo()).unwrap();
+        for t in [
+            "design run",
+            "nominal run",
+            "drift",
+            "min = 98",
+            "max = 102",
+            "run order",
+            "assay (% label claim)",
+        ] {
+            assert!(svg.contains(t), "{t} missing");
+        }
+    }
+
+    #[test]
+    fn run_order_marks_nominal_runs_with_diamonds() {
+        let svg = run_order(&demo()).unwrap();
+        // 3 nominal runs plus the legend sample.
+        assert_eq!(svg.matches("<polygon").count(), 4);
+    }
+
+    #[test]
+    fn run_order_same_input_same_bytes() {
+        assert_eq!(run_order(&demo()).unwrap(), run_order(&demo()).unwrap());
+    }
+
+    #[test]
+    fn run_order_rejects_empty_input() {
+        let mut d = demo();
+        d.runs.clear();
+        assert!(matches!(run_order(&d), Err(PlotError::Empty { .. })));
+    }
+
+    #[test]
+    fn run_order_rejects_nan_response_and_drift() {
+        let mut d = demo();
+        d.runs[4].response = f64::NAN;
+        assert!(matches!(run_order(&d), Err(PlotError::NotFinite { .. })));
+        let mut d = demo();
+        d.drift = Some(Drift {
+            intercept: 1.0,
+            slope: f64::NAN,
+        });
+        assert!(matches!(run_order(&d), Err(PlotError::NotFinite { .. })));
+    }
+
+    #[test]
+    fn run_order_without_options_draws() {
+        let mut d = demo();
+        d.drift = None;
+        d.limits.clear();
+        let svg = run_order(&d).unwrap();
+        assert_clean_svg(&svg);
+        assert!(!svg.contains("drift"));
+    }
+
+    #[test]
+    fn run_order_single_run_draws() {
+        let mut d = demo();
+        d.runs.truncate(1);
+        d.drift = None;
+        d.limits.clear();
+        assert_clean_svg(&run_order(&d).unwrap());
+    }
+}
