@@ -43,9 +43,11 @@ const X_LABEL_AREA: u32 = 48;
 const LABEL_GAP: i32 = 8;
 /// Size of the term labels beside the points: a little under the other labels, because
 /// a half-normal plot of a 16-run design puts many points close together.
-const POINT_LABEL_PX: f64 = 11.5;
+const POINT_LABEL_PX: f64 = 12.0;
 /// Vertical pitch of stacked term labels.
-const LABEL_PITCH: i32 = 13;
+const LABEL_PITCH: i32 = 14;
+/// Tallest the figure grows for crowded points.
+const MAX_HEIGHT: u32 = 520;
 /// Vertical pitch of the reference-line labels above the plot.
 const LINE_LABEL_PITCH: u32 = 17;
 
@@ -53,8 +55,9 @@ const LINE_LABEL_PITCH: u32 = 17;
 /// (usually Φ⁻¹(0.5 + 0.5·(i − 0.5)/m) for the i-th smallest of m absolute effects,
 /// Daniel 1959, Technometrics 1(4), 311–341), each point labelled with its term.
 ///
-/// Labels sit to the right of their points; a label that would overlap one already
-/// placed is moved up by one line, so tied effects are stacked. Reference lines are
+/// Labels sit to the right of their points; crowded labels are spread apart (tied
+/// effects stack one line apart) and joined to their points by thin leaders, and the
+/// figure grows from 400 up to 520 px high when points are closer than a label line. Reference lines are
 /// drawn full height and labelled "name = value" above the plot, one row each.
 ///
 /// Errors: no points, a non-finite value, or a negative |E|.
@@ -116,13 +119,30 @@ pub fn half_normal(input: &HalfNormal) -> Result<String, PlotError> {
     };
     let y_ticks = style::nice_ticks(y_lo, y_hi, 5, 0.0).ok_or_else(range_error)?;
 
+    // Grow the figure (up to MAX_HEIGHT) until neighbouring points are a label pitch
+    // apart, so labels in the crowded low end need not be pushed far from their points.
+    let mut scores: Vec<f64> = input.points.iter().map(|p| p.score).collect();
+    scores.sort_by(f64::total_cmp);
+    let min_gap = scores
+        .windows(2)
+        .map(|w| w[1] - w[0])
+        .filter(|g| *g > 1e-9)
+        .fold(f64::INFINITY, f64::min);
+    let frame = top + 8 + X_LABEL_AREA;
+    let needed = if min_gap.is_finite() {
+        (f64::from(LABEL_PITCH) * (y_hi - y_lo) / min_gap).ceil() as u32 + frame
+    } else {
+        0
+    };
+    let height = needed.clamp(style::HEIGHT, MAX_HEIGHT);
+
     let x_format = |v: &f64| style::format_number(*v, x_ticks.decimals);
     let y_format = |v: &f64| style::format_number(*v, y_ticks.decimals);
 
     let mut buf = String::new();
     {
         let root =
-            SVGBackend::with_string(&mut buf, (style::WIDTH, style::HEIGHT)).into_drawing_area();
+            SVGBackend::with_string(&mut buf, (style::WIDTH, height)).into_drawing_area();
         root.fill(&style::PAPER).map_err(style::backend(FIGURE))?;
         let mut chart = ChartBuilder::on(&root)
             .margin_top(top)

@@ -43,13 +43,13 @@ pub const NOTE: RGBColor = RGBColor(0x5C, 0x64, 0x70);
 pub const PAPER: RGBColor = RGBColor(0xFF, 0xFF, 0xFF);
 
 /// Tick label size in SVG pixels.
-pub const TICK_PX: f64 = 12.0;
+pub const TICK_PX: f64 = 13.0;
 /// Axis title size in SVG pixels.
-pub const TITLE_PX: f64 = 13.0;
+pub const TITLE_PX: f64 = 14.0;
 /// Size of labels placed next to data (term labels, line labels, legend).
-pub const LABEL_PX: f64 = 12.0;
+pub const LABEL_PX: f64 = 13.0;
 /// Size of the note under a figure.
-pub const NOTE_PX: f64 = 11.0;
+pub const NOTE_PX: f64 = 12.0;
 
 /// Dash length and gap, in pixels, for dashed reference lines.
 pub const DASH: (u32, u32) = (6, 4);
