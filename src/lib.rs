@@ -12,5 +12,7 @@
 pub mod analysis;
 pub mod design;
 pub mod pipeline;
+pub mod plot;
 pub mod report;
+pub mod starter;
 pub mod study;

@@ -7,7 +7,8 @@ use clap::{Parser, Subcommand};
 
 use plateau::pipeline;
 use plateau::report::{self, typst};
-use plateau::study::Diagnostics;
+use plateau::design::sheet;
+use plateau::study::{DesignKind, Diagnostics};
 
 const EXIT_CODES: &str = "Exit codes:
   0  success
@@ -59,12 +60,67 @@ enum Command {
         #[arg(long)]
         no_pdf: bool,
     },
+    /// Print the run sheet (CSV, in run order, one empty column per response).
+    #[command(after_help = EXIT_CODES)]
+    Design {
+        /// The study file.
+        study: PathBuf,
+        /// Write to FILE instead of standard output (never overwrites without --force).
+        #[arg(short, long, value_name = "FILE")]
+        output: Option<PathBuf>,
+        /// Coded levels (−1, 0, +1) instead of real units.
+        #[arg(long)]
+        coded: bool,
+        /// Typeset a printable run sheet as PDF (needs -o FILE).
+        #[arg(long, requires = "output")]
+        pdf: bool,
+        /// Replace an existing output file.
+        #[arg(long)]
+        force: bool,
+        /// The typst binary (with --pdf) [default: $PLATEAU_TYPST, then `typst` on the PATH].
+        #[arg(long, value_name = "PATH")]
+        typst: Option<PathBuf>,
+    },
+    /// Write a commented starter study file that `plateau check` accepts as it is.
+    #[command(after_help = EXIT_CODES)]
+    New {
+        /// The file to create (never overwritten).
+        file: PathBuf,
+        /// Design kind.
+        #[arg(long, value_enum, default_value = "full-factorial")]
+        kind: KindArg,
+        /// Number of factors [default: 3, 5 or 7 by kind].
+        #[arg(long)]
+        factors: Option<usize>,
+    },
     /// Print the JSON Schema of the study file.
     Schema,
 }
 
+#[derive(Clone, Copy, clap::ValueEnum)]
+enum KindArg {
+    FullFactorial,
+    FractionalFactorial,
+    PlackettBurman,
+    Youden,
+    Explicit,
+}
+
+impl From<KindArg> for DesignKind {
+    fn from(k: KindArg) -> Self {
+        match k {
+            KindArg::FullFactorial => DesignKind::FullFactorial,
+            KindArg::FractionalFactorial => DesignKind::FractionalFactorial,
+            KindArg::PlackettBurman => DesignKind::PlackettBurman,
+            KindArg::Youden => DesignKind::Youden,
+            KindArg::Explicit => DesignKind::Explicit,
+        }
+    }
+}
+
 enum Failure {
     Invalid(Diagnostics),
+    Usage(String),
     Other(String),
     Typesetter(String),
 }
@@ -85,6 +141,10 @@ fn main() -> ExitCode {
             }
             ExitCode::from(1)
         }
+        Err(Failure::Usage(message)) => {
+            eprintln!("error: {message}");
+            ExitCode::from(2)
+        }
         Err(Failure::Other(message)) => {
             eprintln!("error: {message}");
             ExitCode::from(1)
@@ -99,21 +159,92 @@ fn main() -> ExitCode {
 fn run(command: Command) -> Result<(), Failure> {
     match command {
         Command::Check { study } => {
-            let evaluated = pipeline::evaluate(&study)?;
-            let s = &evaluated.study;
+            let (s, design) = pipeline::plan(&study)?;
             println!("ok  {}: study {} ({})", study.display(), s.info.id, s.info.title);
             println!(
                 "ok  design: {} runs ({} two-level, {} nominal), {} estimable contrasts",
-                evaluated.design.runs.len(),
-                evaluated.design.runs.iter().filter(|r| !r.nominal).count(),
-                evaluated.design.nominal_count(),
-                evaluated.design.contrasts.len()
+                design.runs.len(),
+                design.runs.iter().filter(|r| !r.nominal).count(),
+                design.nominal_count(),
+                design.contrasts.len()
             );
+            if s.results.is_none() {
+                println!("ok  no results yet: `plateau design` prints the run sheet to fill in");
+                return Ok(());
+            }
+            let evaluated = pipeline::evaluate(&study)?;
             println!(
                 "ok  results: {} runs × {} responses",
                 evaluated.data.values.len(),
                 s.responses.len()
             );
+            Ok(())
+        }
+        Command::Design {
+            study,
+            output,
+            coded,
+            pdf,
+            force,
+            typst: typst_path,
+        } => {
+            let (s, design) = pipeline::plan(&study)?;
+            let levels = if coded { sheet::Levels::Coded } else { sheet::Levels::Real };
+            if let Some(out) = &output {
+                if out.exists() && !force {
+                    return Err(Failure::Other(format!(
+                        "{} already exists\nhint: use --force to replace it",
+                        out.display()
+                    )));
+                }
+            }
+            if pdf {
+                let out = output.as_deref().unwrap_or(std::path::Path::new("runsheet.pdf"));
+                let typst = typst::find(typst_path.as_deref())
+                    .map_err(|e| Failure::Typesetter(e.to_string()))?;
+                report::runsheet::write_pdf(&s, &design, levels, &typst, out).map_err(|e| match e {
+                    report::ReportError::Typst(e) => Failure::Typesetter(e.to_string()),
+                    other => Failure::Other(other.to_string()),
+                })?;
+                println!("ok  run sheet written to {}", out.display());
+                return Ok(());
+            }
+            let text = sheet::csv(&s, &design, levels);
+            match output {
+                Some(out) => {
+                    std::fs::write(&out, text)
+                        .map_err(|e| Failure::Other(format!("failed to write {} ({e})", out.display())))?;
+                    eprintln!("ok  run sheet written to {}", out.display());
+                }
+                None => print!("{text}"),
+            }
+            Ok(())
+        }
+        Command::New { file, kind, factors } => {
+            let kind = DesignKind::from(kind);
+            let n = factors.unwrap_or_else(|| plateau::starter::default_factors(kind));
+            let max = plateau::starter::max_factors(kind);
+            if n < 2 || n > max {
+                return Err(Failure::Usage(format!(
+                    "--factors {n} is not available for this kind; expected 2 to {max}"
+                )));
+            }
+            let text = plateau::starter::text(kind, n);
+            let mut f = std::fs::OpenOptions::new()
+                .write(true)
+                .create_new(true)
+                .open(&file)
+                .map_err(|e| {
+                    if e.kind() == std::io::ErrorKind::AlreadyExists {
+                        Failure::Other(format!("{} already exists; plateau new never overwrites a file", file.display()))
+                    } else {
+                        Failure::Other(format!("failed to create {} ({e})", file.display()))
+                    }
+                })?;
+            use std::io::Write;
+            f.write_all(text.as_bytes())
+                .map_err(|e| Failure::Other(format!("failed to write {} ({e})", file.display())))?;
+            println!("ok  wrote {}; check it with `plateau check {}`", file.display(), file.display());
             Ok(())
         }
         Command::Analyze { study, json } => {

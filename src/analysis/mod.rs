@@ -127,6 +127,8 @@ pub struct Effect {
     pub percent: f64,
     /// True when no other term of the order shown shares the column.
     pub estimable: bool,
+    /// True for a dummy column (no factor assigned; its effect estimates error).
+    pub dummy: bool,
     /// The other terms sharing the column (factor-id lists).
     pub aliases: Vec<Vec<String>>,
     /// |effect| (or |% effect|) above the declared limit; `null` when no limit applies.
@@ -308,17 +310,26 @@ fn analyse_response(
     } else {
         None
     };
+    let fitted = if design.least_squares {
+        Some(least_squares_effects(&two_level_rows, &two_level_y, design.k())?)
+    } else {
+        None
+    };
     let limits: Vec<&crate::study::EffectLimit> =
         study.limits.iter().filter(|l| l.response == r).collect();
     let mut effects = Vec::with_capacity(design.contrasts.len());
     for contrast in &design.contrasts {
-        let e = match &fast {
-            Some(all) => all.get(contrast.term as usize).copied(),
-            None => effects::effect(&two_level_rows, &two_level_y, contrast.term),
+        let e = match (&fast, &fitted) {
+            (Some(all), _) => all.get(contrast.term as usize).copied(),
+            (None, Some(map)) => map.get(&contrast.term).copied(),
+            (None, None) => effects::effect(&two_level_rows, &two_level_y, contrast.term),
         };
         let Some(e) = e else { continue };
         let percent = 100.0 * e / reference;
-        let relevant = (!limits.is_empty()).then(|| {
+        let dummy = term_factors(contrast.term)
+            .iter()
+            .any(|&j| j >= study.factors.len());
+        let relevant = (!limits.is_empty() && !dummy).then(|| {
             limits.iter().any(|l| match l.unit {
                 LimitUnit::Percent => percent.abs() > l.limit,
                 LimitUnit::Absolute => e.abs() > l.limit,
@@ -347,6 +358,7 @@ fn analyse_response(
             effect: e,
             percent,
             estimable: contrast.is_clean(),
+            dummy,
             aliases: contrast.chain.iter().skip(1).map(|(t, _)| ids(*t)).collect(),
             relevant,
         });
@@ -355,11 +367,11 @@ fn analyse_response(
         robust: (!limits.is_empty()).then(|| {
             !effects
                 .iter()
-                .any(|e| e.order == 1 && e.relevant == Some(true))
+                .any(|e| e.order == 1 && !e.dummy && e.relevant == Some(true))
         }),
         relevant_factors: effects
             .iter()
-            .filter(|e| e.order == 1 && e.relevant == Some(true))
+            .filter(|e| e.order == 1 && !e.dummy && e.relevant == Some(true))
             .flat_map(|e| e.factors.clone())
             .collect(),
         relevant_interactions: effects
@@ -395,6 +407,36 @@ fn analyse_response(
             .collect(),
         verdict,
     })
+}
+
+/// Main effects of a non-orthogonal two-level design by least squares: y = b0 + Σ b_j x_j,
+/// E_j = 2·b_j (so that E keeps its meaning of a change from −1 to +1), keyed by term mask.
+fn least_squares_effects(
+    rows: &[&[i8]],
+    y: &[f64],
+    k: usize,
+) -> Result<std::collections::BTreeMap<TermMask, f64>, (String, String)> {
+    let n = rows.len();
+    let x = nalgebra::DMatrix::from_fn(n, k + 1, |i, j| {
+        if j == 0 {
+            1.0
+        } else {
+            f64::from(rows.get(i).and_then(|r| r.get(j - 1)).copied().unwrap_or(0))
+        }
+    });
+    let yv = nalgebra::DVector::from_column_slice(y);
+    let svd = x.svd(true, true);
+    let rank = svd.rank(1e-9);
+    if rank < k + 1 {
+        return Err((
+            format!("the design matrix has rank {rank}, so {} coefficients cannot all be estimated", k + 1),
+            "expected runs whose factor columns are linearly independent".into(),
+        ));
+    }
+    let b = svd
+        .solve(&yv, 1e-12)
+        .map_err(|e| (format!("least squares failed ({e})"), String::new()))?;
+    Ok((0..k).map(|j| (1u64 << j, 2.0 * b[j + 1])).collect())
 }
 
 /// Effects of a complete factorial by the fast transform, replicates averaged first.

@@ -9,6 +9,7 @@ pub mod catalogue;
 pub mod fraction;
 pub mod order;
 pub mod plackett_burman;
+pub mod sheet;
 pub mod word;
 
 use crate::study::{
@@ -50,13 +51,54 @@ impl Contrast {
     }
 }
 
+/// What a regular fraction or a screening array is, for the report and the JSON.
+#[derive(Debug, Clone, Default, serde::Serialize)]
+pub struct Structure {
+    /// Generators as written (letters or factor ids).
+    pub generators: Vec<String>,
+    /// Where the generators came from, when chosen from the catalogue.
+    pub catalogue: Option<String>,
+    /// The defining relation, e.g. `I = ABCDE`, words in factor ids joined by `×`.
+    pub defining_relation: Vec<String>,
+    /// Resolution (length of the shortest defining word); `None` for full factorials and
+    /// non-regular designs.
+    pub resolution: Option<u32>,
+    /// Word-length pattern (A_3, A_4, ...).
+    pub word_length_pattern: Vec<usize>,
+    /// True when the design is the Youden–Steiner 7-factors-in-8-runs arrangement.
+    pub youden: bool,
+    /// True when the mirror-image runs were added.
+    pub folded: bool,
+    /// Highest interaction order shown in alias chains.
+    pub alias_order: u32,
+    /// Partial aliasing of two-factor interactions with main effects (non-regular designs).
+    pub partial_aliases: Vec<PartialAliasText>,
+}
+
+/// One interaction partially aliased with a main effect.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct PartialAliasText {
+    /// The two factors of the interaction.
+    pub interaction: Vec<String>,
+    /// The main-effect column it leaks into.
+    pub with: String,
+    /// Correlation of the two columns.
+    pub correlation: f64,
+}
+
 /// The planned design.
 #[derive(Debug, Clone)]
 pub struct Design {
     /// Kind as requested.
     pub kind: DesignKind,
-    /// Factor ids of the columns, in order (study factors).
+    /// Ids of the columns, in order: the study factors, then dummy columns `d1, d2, ...`.
     pub column_ids: Vec<String>,
+    /// Number of dummy columns (at the end of `column_ids`).
+    pub dummies: usize,
+    /// Generators, defining relation, resolution, aliasing.
+    pub structure: Structure,
+    /// Effects come from least squares (a non-orthogonal explicit design).
+    pub least_squares: bool,
     /// All runs, sorted by run id (standard order).
     pub runs: Vec<PlannedRun>,
     /// Two-level runs per replicate.
@@ -119,10 +161,191 @@ pub fn term_cmp(a: TermMask, b: TermMask) -> std::cmp::Ordering {
 
 /// Plans the design of a study.
 pub fn plan(study: &Study) -> Result<Design, Diagnostics> {
-    match study.design.kind {
-        DesignKind::FullFactorial => Ok(full_factorial(study)),
-        DesignKind::Explicit => explicit(study),
+    let design = match study.design.kind {
+        DesignKind::FullFactorial => full_factorial(study),
+        DesignKind::FractionalFactorial | DesignKind::Youden => regular_fraction(study)?,
+        DesignKind::PlackettBurman => plackett_burman(study)?,
+        DesignKind::Explicit => explicit(study)?,
+    };
+    check_nominal_placement(study, &design)?;
+    Ok(design)
+}
+
+fn check_nominal_placement(study: &Study, design: &Design) -> Result<(), Diagnostics> {
+    if let crate::study::Placement::Every(k) = study.design.nominal_runs {
+        let m = design.runs.iter().filter(|r| !r.nominal).count();
+        let needed = m / k + 1;
+        let have = design.nominal_count();
+        if have != needed {
+            return Err(Diagnostics(vec![study.diagnostic(
+                &FieldPath::of(&["design", "center-points"]),
+                format!(
+                    "`nominal-runs: {{every: {k}}}` over {m} two-level runs places {needed} nominal runs, but {have} are planned"
+                ),
+                Some(format!("expected center-points: {needed}, or another spacing")),
+            )]));
+        }
     }
+    Ok(())
+}
+
+/// Ids of the dummy columns.
+fn dummy_ids(count: usize) -> Vec<String> {
+    (1..=count).map(|i| format!("d{i}")).collect()
+}
+
+/// Two-level runs of one replicate repeated `replicates` times, ids continuing across
+/// replicates.
+fn replicate_rows(rows: &[Vec<i8>], replicates: usize) -> Vec<(RunId, Vec<i8>, usize)> {
+    let n = rows.len();
+    let mut out = Vec::with_capacity(n * replicates);
+    for r in 0..replicates {
+        for (i, row) in rows.iter().enumerate() {
+            out.push((RunId((r * n + i + 1).to_string()), row.clone(), r + 1));
+        }
+    }
+    out
+}
+
+fn nominal_ids(study: &Study, after: usize) -> Vec<RunId> {
+    (0..study.design.center_points)
+        .map(|c| RunId((after + c + 1).to_string()))
+        .collect()
+}
+
+fn words_text(ids: &[String], word: crate::design::word::SignedWord) -> String {
+    let names: Vec<&str> = word
+        .word
+        .factors()
+        .into_iter()
+        .filter_map(|i| ids.get(i).map(String::as_str))
+        .collect();
+    format!("{}{}", if word.sign < 0 { "−" } else { "" }, names.join("×"))
+}
+
+fn regular_fraction(study: &Study) -> Result<Design, Diagnostics> {
+    let request = &study.design;
+    let Some(fraction) = &request.fraction else {
+        return Err(Diagnostics(vec![study.diagnostic(
+            &FieldPath::of(&["design"]),
+            "internal error: the fraction was not resolved",
+            None,
+        )]));
+    };
+    let k_study = study.factors.len();
+    let dummies = fraction.k.saturating_sub(k_study);
+    let mut ids: Vec<String> = study.factors.iter().map(|f| f.id.clone()).collect();
+    ids.extend(dummy_ids(dummies));
+    let alias_order = request.alias_order.max(1);
+    let (rows, defining, resolution, wlp, contrasts) = if request.foldover {
+        let folded = fraction.fold_over().map_err(|e| {
+            Diagnostics(vec![study.diagnostic(
+                &FieldPath::of(&["design", "foldover"]),
+                e.to_string(),
+                None,
+            )])
+        })?;
+        (
+            folded.runs.clone(),
+            folded.defining_relation.clone(),
+            folded.resolution,
+            folded.word_length_pattern.clone(),
+            folded.contrasts(alias_order),
+        )
+    } else {
+        (
+            fraction.matrix(),
+            fraction.defining_relation.clone(),
+            fraction.resolution,
+            fraction.word_length_pattern.clone(),
+            fraction.contrasts(alias_order),
+        )
+    };
+    let n = rows.len();
+    let replicates = request.replicates.max(1);
+    let contrasts: Vec<Contrast> = contrasts
+        .into_iter()
+        .map(|c| Contrast {
+            term: c.column.0,
+            chain: c.chain.iter().map(|w| (w.word.0, w.sign)).collect(),
+        })
+        .collect();
+    let structure = Structure {
+        generators: request.generator_texts.clone(),
+        catalogue: request.catalogue.clone(),
+        defining_relation: defining.iter().map(|w| format!("I = {}", words_text(&ids, *w))).collect(),
+        resolution,
+        word_length_pattern: wlp,
+        youden: !request.foldover && crate::design::fraction::is_youden_steiner(fraction),
+        folded: request.foldover,
+        alias_order,
+        partial_aliases: Vec::new(),
+    };
+    let two_level = replicate_rows(&rows, replicates);
+    let nominal = nominal_ids(study, n * replicates);
+    let mut design = assemble(study, two_level, nominal, n, replicates, contrasts, false);
+    design.column_ids = ids;
+    design.dummies = dummies;
+    design.structure = structure;
+    Ok(design)
+}
+
+fn plackett_burman(study: &Study) -> Result<Design, Diagnostics> {
+    let request = &study.design;
+    let n = request.pb_runs.unwrap_or(0);
+    let matrix = crate::design::plackett_burman::matrix(n).map_err(|e| {
+        Diagnostics(vec![study.diagnostic(
+            &FieldPath::of(&["design", "runs"]),
+            e.to_string(),
+            None,
+        )])
+    })?;
+    let k = study.factors.len();
+    let columns = n.saturating_sub(1);
+    let dummies = columns.saturating_sub(k);
+    let mut ids: Vec<String> = study.factors.iter().map(|f| f.id.clone()).collect();
+    ids.extend(dummy_ids(dummies));
+    let mut rows = matrix;
+    if request.foldover {
+        let mirror: Vec<Vec<i8>> = rows.iter().map(|r| r.iter().map(|v| -v).collect()).collect();
+        rows.extend(mirror);
+    }
+    let contrasts = (0..columns)
+        .map(|j| Contrast {
+            term: 1u64 << j,
+            chain: vec![(1u64 << j, 1)],
+        })
+        .collect();
+    let factor_cols: Vec<usize> = (0..k).collect();
+    let partial = crate::design::aliasing::interaction_correlations(&rows, &factor_cols)
+        .into_iter()
+        .filter(|p| p.with.0.count_ones() == 1 && (p.with.0.trailing_zeros() as usize) < k)
+        .map(|p| PartialAliasText {
+            interaction: p
+                .interaction
+                .factors()
+                .into_iter()
+                .filter_map(|i| ids.get(i).cloned())
+                .collect(),
+            with: ids.get(p.with.0.trailing_zeros() as usize).cloned().unwrap_or_default(),
+            correlation: p.correlation,
+        })
+        .collect();
+    let structure = Structure {
+        folded: request.foldover,
+        alias_order: 1,
+        partial_aliases: partial,
+        ..Structure::default()
+    };
+    let base = rows.len();
+    let replicates = request.replicates.max(1);
+    let two_level = replicate_rows(&rows, replicates);
+    let nominal = nominal_ids(study, base * replicates);
+    let mut design = assemble(study, two_level, nominal, base, replicates, contrasts, false);
+    design.column_ids = ids;
+    design.dummies = dummies;
+    design.structure = structure;
+    Ok(design)
 }
 
 fn full_factorial(study: &Study) -> Design {
@@ -159,7 +382,7 @@ fn assemble(
     contrasts: Vec<Contrast>,
     complete_factorial: bool,
 ) -> Design {
-    let k = study.factors.len();
+    let k = two_level.first().map_or(study.factors.len(), |r| r.1.len());
     let orders = order::run_order(
         two_level.len(),
         nominal_ids.len(),
@@ -189,6 +412,12 @@ fn assemble(
     Design {
         kind: study.design.kind,
         column_ids: study.factors.iter().map(|f| f.id.clone()).collect(),
+        dummies: 0,
+        structure: Structure {
+            alias_order: k as u32,
+            ..Structure::default()
+        },
+        least_squares: false,
         runs,
         base_runs,
         replicates,
@@ -241,6 +470,10 @@ fn explicit(study: &Study) -> Result<Design, Diagnostics> {
             }
         }
     }
+    let allowed = study.design.allow_nonorthogonal;
+    if allowed {
+        problems = Diagnostics::default();
+    }
     if matrix.is_empty() {
         problems.push(study.diagnostic(
             &at,
@@ -251,7 +484,18 @@ fn explicit(study: &Study) -> Result<Design, Diagnostics> {
     if !problems.is_empty() {
         return Err(problems.sorted());
     }
-    let contrasts = contrasts_from_matrix(&matrix, k);
+    let orthogonal = is_orthogonal(&matrix, k);
+    let contrasts = if orthogonal {
+        contrasts_from_matrix(&matrix, k)
+    } else {
+        // Only main effects can be fitted by least squares from a non-orthogonal matrix.
+        (0..k)
+            .map(|j| Contrast {
+                term: 1u64 << j,
+                chain: vec![(1u64 << j, 1)],
+            })
+            .collect()
+    };
     let n = matrix.len();
     let mut runs: Vec<PlannedRun> = Vec::new();
     let explicit_order = study.design.explicit_runs.iter().all(|r| r.order.is_some());
@@ -290,6 +534,12 @@ fn explicit(study: &Study) -> Result<Design, Diagnostics> {
     Ok(Design {
         kind: DesignKind::Explicit,
         column_ids: study.factors.iter().map(|f| f.id.clone()).collect(),
+        dummies: 0,
+        structure: Structure {
+            alias_order: 1,
+            ..Structure::default()
+        },
+        least_squares: !orthogonal,
         runs,
         base_runs: n,
         replicates: 1,
@@ -297,6 +547,15 @@ fn explicit(study: &Study) -> Result<Design, Diagnostics> {
         complete_factorial: false,
         seed: study.design.seed,
     })
+}
+
+/// True when every factor column is balanced and every pair of columns orthogonal.
+fn is_orthogonal(matrix: &[Vec<i8>], k: usize) -> bool {
+    let col = |j: usize| matrix.iter().map(move |row| i64::from(row.get(j).copied().unwrap_or(0)));
+    (0..k).all(|a| col(a).sum::<i64>() == 0)
+        && (0..k).all(|a| {
+            (a + 1..k).all(|b| col(a).zip(col(b)).map(|(x, y)| x * y).sum::<i64>() == 0)
+        })
 }
 
 fn check_explicit_order(study: &Study, runs: &[PlannedRun]) -> Result<(), Diagnostic> {

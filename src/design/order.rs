@@ -9,7 +9,7 @@
 use rand_chacha::ChaCha20Rng;
 use rand_core::{RngCore, SeedableRng};
 
-use crate::study::NominalPlacement;
+use crate::study::Placement as NominalPlacement;
 
 /// The generator for a study seed: the 64-bit seed in little-endian order, then zero bytes, as
 /// the 256-bit ChaCha20 key.
@@ -85,6 +85,7 @@ fn place(factorial: &[usize], nominals: &[usize], placement: NominalPlacement) -
         match placement {
             NominalPlacement::First => 0,
             NominalPlacement::Last => m,
+            NominalPlacement::Every(k) => (j * k.max(1)).min(m),
             _ if n <= 1 => 0,
             _ => (j * m + (n - 1) / 2) / (n - 1),
         }
@@ -112,6 +113,15 @@ mod tests {
         let order = run_order(8, 3, NominalPlacement::Spread, None);
         // two-level runs 1..8 keep their sequence; nominal runs at positions 1, 6 and 11.
         assert_eq!(order, vec![2, 3, 4, 5, 7, 8, 9, 10, 1, 6, 11]);
+    }
+
+    #[test]
+    fn every_k_places_one_first_and_one_after_each_k_two_level_runs() {
+        // 8 two-level runs, every 4: nominal runs at positions 1, 6 and 11.
+        assert_eq!(
+            run_order(8, 3, NominalPlacement::Every(4), None),
+            vec![2, 3, 4, 5, 7, 8, 9, 10, 1, 6, 11]
+        );
     }
 
     #[test]

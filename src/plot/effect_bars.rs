@@ -34,6 +34,8 @@ pub struct EffectBars {
 const TOP: u32 = 30;
 const MARGIN_RIGHT: u32 = 18;
 const X_LABEL_AREA: u32 = 44;
+/// Most bars one chart takes (a 2^8 full factorial has 255 effects).
+const MAX_BARS: usize = 255;
 /// Vertical room per bar in pixels; the figure grows when there are many terms.
 const BAR_PITCH: u32 = 24;
 
@@ -45,14 +47,9 @@ const BAR_PITCH: u32 = 24;
 /// A bar is "above the limit" when |value| > limit, strictly (common practice: an effect
 /// equal to the limit still meets it).
 ///
-/// Errors: no bars, a non-finite value or limit.
+/// Errors: no bars (or more than 255), a non-finite value or limit.
 pub fn effect_bars(input: &EffectBars) -> Result<String, PlotError> {
-    if input.bars.is_empty() {
-        return Err(PlotError::Empty {
-            figure: FIGURE,
-            what: "bars",
-        });
-    }
+    style::count(FIGURE, "bars", input.bars.len(), MAX_BARS)?;
     for (i, b) in input.bars.iter().enumerate() {
         style::finite(FIGURE, &format!("bars[{i}].value"), b.value)?;
     }
@@ -311,6 +308,21 @@ mod tests {
             value: f64::NAN,
         });
         assert!(matches!(effect_bars(&d), Err(PlotError::NotFinite { .. })));
+    }
+
+    #[test]
+    fn effect_bars_rejects_too_many_bars() {
+        let d = EffectBars {
+            bars: (0..300)
+                .map(|i| Bar {
+                    label: format!("t{i}"),
+                    value: 1.0,
+                })
+                .collect(),
+            limit: None,
+            x_title: String::new(),
+        };
+        assert!(matches!(effect_bars(&d), Err(PlotError::Invalid { .. })));
     }
 
     #[test]

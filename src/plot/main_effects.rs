@@ -37,6 +37,8 @@ pub struct MainEffects {
     pub y_title: String,
 }
 
+/// Most panels one figure takes (a Plackett–Burman design for 47 factors has 48 runs).
+const MAX_PANELS: usize = 48;
 /// Left strip holding the rotated y title.
 const STRIP: u32 = 26;
 /// Tick label room left of the first panel of each row.
@@ -57,14 +59,9 @@ const PANEL_TITLE: u32 = 24;
 /// Up to 4 panels per row (3 when level texts are long), further factors wrap to new
 /// rows; the figure grows in height, not in width.
 ///
-/// Errors: no panels, a non-finite mean.
+/// Errors: no panels (or more than 48), a non-finite mean.
 pub fn main_effects(input: &MainEffects) -> Result<String, PlotError> {
-    if input.panels.is_empty() {
-        return Err(PlotError::Empty {
-            figure: FIGURE,
-            what: "factors",
-        });
-    }
+    style::count(FIGURE, "factors", input.panels.len(), MAX_PANELS)?;
     let gm = style::finite(FIGURE, "grand_mean", input.grand_mean)?;
     let mut lo = gm;
     let mut hi = gm;

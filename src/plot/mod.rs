@@ -1,7 +1,7 @@
 //! The report's figures as SVG text: each function takes a small, self-contained input
 //! and returns the SVG as a `String`, so the caller decides where the bytes go.
 //!
-//! All figures share [`style`] (palette, fonts, number format) and are deterministic:
+//! All figures share `style.rs` (palette, fonts, number format) and are deterministic:
 //! the same input gives the same bytes.
 
 pub mod effect_bars;
@@ -9,7 +9,7 @@ pub mod half_normal;
 pub mod interaction;
 pub mod main_effects;
 pub mod run_order;
-pub mod style;
+mod style;
 
 pub use effect_bars::{Bar, EffectBars, effect_bars};
 pub use half_normal::{HalfNormal, HalfNormalPoint, half_normal};

@@ -51,6 +51,9 @@ pub struct RunOrder {
     pub drift_label: String,
 }
 
+/// Most runs one plot takes.
+const MAX_RUNS: usize = 10_000;
+
 /// Draws every run at (order, response): design runs as dark circles, nominal runs as
 /// blue-green diamonds joined in sequence, the drift line dashed and the limits as
 /// accent-coloured dashed lines labelled "name = value" at their right end.
@@ -59,12 +62,16 @@ pub struct RunOrder {
 /// common check for time trends, Vander Heyden et al. 2001, J. Pharm. Biomed. Anal. 24,
 /// 723–753).
 ///
-/// Errors: no runs, a non-finite response, drift or limit.
+/// Errors: no runs (or more than 10 000), a non-finite response, drift or limit.
 pub fn run_order(input: &RunOrder) -> Result<String, PlotError> {
-    if input.runs.is_empty() {
-        return Err(PlotError::Empty {
+    style::count(FIGURE, "runs", input.runs.len(), MAX_RUNS)?;
+    if input.limits.len() > MAX_RUNS {
+        return Err(PlotError::Invalid {
             figure: FIGURE,
-            what: "runs",
+            reason: format!(
+                "{} limits given; expected at most {MAX_RUNS}",
+                input.limits.len()
+            ),
         });
     }
     for (i, r) in input.runs.iter().enumerate() {

@@ -89,9 +89,42 @@ pub fn text_width(text: &str, px: f64) -> f64 {
     text.chars().count() as f64 * 0.55 * px
 }
 
-/// Removes control characters, which XML 1.0 does not allow in text.
+/// Longest text drawn; longer input is cut and ends in "…" (keeps pixel arithmetic
+/// far from overflow whatever the input).
+pub const MAX_TEXT_CHARS: usize = 200;
+
+/// Removes control characters, which XML 1.0 does not allow in text, and cuts text
+/// longer than [`MAX_TEXT_CHARS`].
 pub fn clean(text: &str) -> String {
-    text.chars().filter(|c| !c.is_control()).collect()
+    let mut out: String = text
+        .chars()
+        .filter(|c| !c.is_control())
+        .take(MAX_TEXT_CHARS + 1)
+        .collect();
+    if out.chars().count() > MAX_TEXT_CHARS {
+        out = out.chars().take(MAX_TEXT_CHARS - 1).collect();
+        out.push('…');
+    }
+    out
+}
+
+/// Checks that a list is not empty and not longer than a figure can show.
+pub fn count(
+    figure: &'static str,
+    what: &'static str,
+    n: usize,
+    max: usize,
+) -> Result<(), super::PlotError> {
+    if n == 0 {
+        Err(super::PlotError::Empty { figure, what })
+    } else if n > max {
+        Err(super::PlotError::Invalid {
+            figure,
+            reason: format!("{n} {what} given; expected at most {max}"),
+        })
+    } else {
+        Ok(())
+    }
 }
 
 /// Axis ticks chosen by [`nice_ticks`].
@@ -581,6 +614,14 @@ mod tests {
     #[test]
     fn clean_drops_control_characters() {
         assert_eq!(clean("a\u{0}b\nc"), "abc");
+    }
+
+    #[test]
+    fn clean_cuts_overlong_text() {
+        let long = "x".repeat(1000);
+        let c = clean(&long);
+        assert_eq!(c.chars().count(), MAX_TEXT_CHARS);
+        assert!(c.ends_with('…'));
     }
 
     #[test]

@@ -101,7 +101,11 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
             ));
             continue;
         };
-        let mains: Vec<&Effect> = response.effects.iter().filter(|e| e.order == 1).collect();
+        let mains: Vec<&Effect> = response
+            .effects
+            .iter()
+            .filter(|e| e.order == 1 && !e.dummy)
+            .collect();
         let relevant: Vec<&Effect> = mains
             .iter()
             .copied()

@@ -278,12 +278,35 @@ fn paragraphs(text: &str) -> Vec<String> {
 
 fn design_text(evaluated: &Evaluated) -> DesignText {
     let design = &evaluated.design;
+    let st = &design.structure;
+    let k = evaluated.study.factors.len();
     let kind = match design.kind {
-        crate::study::DesignKind::FullFactorial => format!("full factorial 2^{}", design.k()),
+        crate::study::DesignKind::FullFactorial => format!("full factorial 2^{k}"),
+        crate::study::DesignKind::FractionalFactorial => {
+            let p = st.generators.len();
+            format!(
+                "fractional factorial 2^({}−{p}){}{}",
+                design.k(),
+                st.resolution
+                    .map(|r| format!(", resolution {}", crate::design::catalogue::roman(r)))
+                    .unwrap_or_default(),
+                if st.youden { " (the Youden–Steiner ruggedness design)" } else { "" }
+            )
+        }
+        crate::study::DesignKind::Youden => format!(
+            "Youden–Steiner ruggedness design, 7 columns in 8 runs{}",
+            if design.dummies > 0 { format!(" ({} dummy columns)", design.dummies) } else { String::new() }
+        ),
+        crate::study::DesignKind::PlackettBurman => format!(
+            "Plackett–Burman design of {} runs{}",
+            design.base_runs / if st.folded { 2 } else { 1 },
+            if design.dummies > 0 { format!(" with {} dummy columns", design.dummies) } else { String::new() }
+        ),
         crate::study::DesignKind::Explicit => {
             format!("explicit two-level design of {} runs", design.base_runs)
         }
     };
+    let kind = if st.folded { format!("{kind}, folded over (mirror-image runs added)") } else { kind };
     let order = match design.seed {
         Some(seed) => format!("randomised (ChaCha20, seed {seed})"),
         None => "standard order (not randomised)".to_string(),

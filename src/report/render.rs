@@ -15,6 +15,7 @@ use super::escape;
 pub const BUILT_IN: &[(&str, &str)] = &[
     ("report.typ.j2", include_str!("../../templates/report.typ.j2")),
     ("section.typ.j2", include_str!("../../templates/section.typ.j2")),
+    ("runsheet.typ.j2", include_str!("../../templates/runsheet.typ.j2")),
 ];
 
 /// A template problem, with the template's name and line.

@@ -12,7 +12,7 @@ use super::diagnostic::{Diagnostic, Diagnostics, FieldPath, closest};
 use super::locate::Locator;
 use super::model::{self, DesignKind, LimitUnit, NominalPlacement, PercentOf, StudyFile};
 use super::{
-    DesignRequest, EffectLimit, ExplicitRun, Factor, Levels, Response, RunId, Study,
+    DesignRequest, EffectLimit, ExplicitRun, Factor, Levels, Placement, Response, RunId, Study,
 };
 
 /// Most factors a study may have (the largest Plackett–Burman design has 47 columns).
@@ -56,7 +56,9 @@ pub fn study(
     let design = design(&mut c, &file.design, &file.factors);
     let responses = responses(&mut c, &file, &design);
     let limits = limits(&mut c, &file, &responses);
-    check_results_spec(&mut c, &file.results);
+    if let Some(results) = &file.results {
+        check_results_spec(&mut c, results);
+    }
     check_id_clashes(&mut c, &file);
     if !c.problems.is_empty() {
         return Err(c.problems.sorted());
@@ -190,7 +192,7 @@ fn factor_levels(c: &mut Checker<'_>, f: &model::FactorSpec, at: &FieldPath) -> 
         return None;
     };
     let (low, high) = match (f.delta, f.low, f.high) {
-        (Some(d), None, None) => (nominal - d, nominal + d),
+        (Some(d), None, None) => (tidy(nominal - d), tidy(nominal + d)),
         (None, Some(l), Some(h)) => (l, h),
         (Some(_), _, _) => {
             c.report(
@@ -255,50 +257,292 @@ fn design(
         }
         Some(model::RandomizeSpec::Seeded(s)) => Some(s.seed),
     };
+    let nominal_runs = match spec.nominal_runs {
+        None | Some(model::NominalRunsSpec::Named(NominalPlacement::Spread)) => Placement::Spread,
+        Some(model::NominalRunsSpec::Named(NominalPlacement::First)) => Placement::First,
+        Some(model::NominalRunsSpec::Named(NominalPlacement::Last)) => Placement::Last,
+        Some(model::NominalRunsSpec::Named(NominalPlacement::Random)) => Placement::Random,
+        Some(model::NominalRunsSpec::Every(e)) => Placement::Every(e.every.max(1) as usize),
+    };
+    if nominal_runs == Placement::Random && seed.is_none() {
+        c.report(
+            &at.key("nominal-runs"),
+            "`nominal-runs: random` needs a randomised run order",
+            Some("add `randomize: {seed: <number>}`, or choose spread, first, last or {every: k}".into()),
+        );
+    }
+    let k = factors.len();
     let mut request = DesignRequest {
         kind: spec.kind,
         explicit_runs: Vec::new(),
+        fraction: None,
+        generator_texts: Vec::new(),
+        catalogue: None,
+        pb_runs: None,
+        foldover: spec.foldover.unwrap_or(false),
+        alias_order: spec.alias_order.unwrap_or(2),
+        allow_nonorthogonal: spec.allow_nonorthogonal.unwrap_or(false),
         center_points: spec.center_points.unwrap_or(0) as usize,
-        nominal_runs: spec.nominal_runs.unwrap_or(NominalPlacement::Spread),
+        nominal_runs,
         replicates: spec.replicates.unwrap_or(1) as usize,
         seed,
     };
+    let kind_name = kind_text(spec.kind);
+    let not_here = |c: &mut Checker<'_>, name: &str, present: bool, hint: &str| {
+        if present {
+            c.report(
+                &at.key(name),
+                format!("`{name}` does not apply to kind {kind_name}"),
+                Some(hint.to_string()),
+            );
+        }
+    };
+    let count = match &spec.runs {
+        Some(model::RunsSpec::Count(n)) => Some(*n as usize),
+        _ => None,
+    };
+    let is_list = matches!(spec.runs, Some(model::RunsSpec::List(_)));
+    if spec.kind != DesignKind::Explicit {
+        not_here(c, "allow-nonorthogonal", spec.allow_nonorthogonal.is_some(), "only an explicit design can be non-orthogonal");
+        if is_list {
+            c.report(
+                &at.key("runs"),
+                format!("a {kind_name} design is generated, so it takes no run list"),
+                Some("remove the list, or use `kind: explicit` to give the runs yourself".into()),
+            );
+        }
+    }
+    if !matches!(spec.kind, DesignKind::FractionalFactorial) {
+        not_here(c, "generators", spec.generators.is_some(), "generators belong to kind fractional-factorial");
+        not_here(c, "resolution", spec.resolution.is_some(), "resolution belongs to kind fractional-factorial");
+    }
+    if !matches!(spec.kind, DesignKind::PlackettBurman | DesignKind::Youden) {
+        not_here(c, "dummies", spec.dummies.is_some(), "dummy columns belong to kinds plackett-burman and youden");
+    }
     match spec.kind {
         DesignKind::FullFactorial => {
-            if spec.runs.is_some() {
-                c.report(
-                    &at.key("runs"),
-                    "a full factorial has no run list",
-                    Some("remove `runs`, or use `kind: explicit` to give the runs".into()),
-                );
-            }
-            if factors.len() > MAX_FULL_FACTORIAL_FACTORS {
+            not_here(c, "runs", count.is_some(), "a full factorial of k factors has 2^k runs");
+            not_here(c, "foldover", spec.foldover.is_some(), "a full factorial has no aliasing to break");
+            if k > MAX_FULL_FACTORIAL_FACTORS {
                 c.report(
                     &at.key("kind"),
-                    format!("a full factorial of {} factors has too many runs", factors.len()),
+                    format!("a full factorial of {k} factors has too many runs"),
                     Some(format!(
-                        "expected at most {MAX_FULL_FACTORIAL_FACTORS} factors for a full factorial"
+                        "expected at most {MAX_FULL_FACTORIAL_FACTORS} factors for a full factorial; use kind fractional-factorial or plackett-burman"
                     )),
                 );
             }
         }
-        DesignKind::Explicit => {
-            for (name, present) in [
-                ("center-points", spec.center_points.is_some()),
-                ("replicates", spec.replicates.is_some()),
-            ] {
-                if present {
-                    c.report(
-                        &at.key(name),
-                        format!("`{name}` does not apply to an explicit design"),
-                        Some("list every run, nominal runs as rows with each factor at 0".into()),
-                    );
-                }
+        DesignKind::FractionalFactorial => fractional(c, spec, factors, count, &mut request),
+        DesignKind::PlackettBurman => {
+            let dummies = spec.dummies.unwrap_or(0) as usize;
+            let needed = k + dummies;
+            let sizes = crate::design::plackett_burman::SIZES
+                .iter()
+                .map(ToString::to_string)
+                .collect::<Vec<_>>()
+                .join(", ");
+            match count {
+                Some(n) if !crate::design::plackett_burman::SIZES.contains(&n) => c.report(
+                    &at.key("runs"),
+                    format!("there is no Plackett–Burman design of {n} runs here"),
+                    Some(format!("expected one of {sizes}")),
+                ),
+                Some(n) if needed > n - 1 => c.report(
+                    &at.key("runs"),
+                    format!(
+                        "{k} factors{} need {needed} columns, more than the {} of a {n}-run Plackett–Burman design",
+                        if dummies > 0 { format!(" and {dummies} dummies") } else { String::new() },
+                        n - 1
+                    ),
+                    Some(format!(
+                        "expected runs of at least {}",
+                        crate::design::plackett_burman::smallest_size(needed)
+                            .map_or_else(|| "(none available)".to_string(), |s| s.to_string())
+                    )),
+                ),
+                Some(n) => request.pb_runs = Some(n),
+                None => match crate::design::plackett_burman::smallest_size(needed) {
+                    Some(n) => request.pb_runs = Some(n),
+                    None => c.report(
+                        &at.key("kind"),
+                        format!("{needed} columns are more than the largest Plackett–Burman design here"),
+                        Some(format!("expected at most {} columns", crate::design::plackett_burman::SIZES.last().map_or(0, |n| n - 1))),
+                    ),
+                },
             }
+        }
+        DesignKind::Youden => {
+            not_here(c, "runs", count.is_some(), "the Youden–Steiner design has 8 runs");
+            if k > 7 {
+                c.report(
+                    &at.key("kind"),
+                    format!("the Youden–Steiner design has 7 columns, but the study has {k} factors"),
+                    Some("expected at most 7 factors; use kind plackett-burman for more".into()),
+                );
+            } else {
+                let fraction = crate::design::fraction::youden_steiner();
+                request.generator_texts = youden_generator_texts(&fraction);
+                request.fraction = Some(fraction);
+            }
+        }
+        DesignKind::Explicit => {
+            not_here(c, "center-points", spec.center_points.is_some(), "list every run, nominal runs as rows with each factor at 0");
+            not_here(c, "replicates", spec.replicates.is_some(), "list every run of an explicit design");
+            not_here(c, "foldover", spec.foldover.is_some(), "list the mirror-image runs yourself");
+            not_here(c, "runs", count.is_some(), "expected `runs:` as a list of `{run: ID, <factor id>: -1 | 0 | 1}`");
             request.explicit_runs = explicit_runs(c, spec, factors, &at.key("runs"));
         }
     }
     request
+}
+
+/// The kind as written in the study file.
+pub fn kind_text(kind: DesignKind) -> &'static str {
+    match kind {
+        DesignKind::FullFactorial => "full-factorial",
+        DesignKind::FractionalFactorial => "fractional-factorial",
+        DesignKind::PlackettBurman => "plackett-burman",
+        DesignKind::Youden => "youden",
+        DesignKind::Explicit => "explicit",
+    }
+}
+
+fn youden_generator_texts(fraction: &crate::design::fraction::Fraction) -> Vec<String> {
+    fraction
+        .generators
+        .iter()
+        .map(|g| {
+            format!(
+                "{} = {}{}",
+                crate::design::word::factor_label(g.factor),
+                if g.sign < 0 { "−" } else { "" },
+                crate::design::word::letters(g.word)
+            )
+        })
+        .collect()
+}
+
+fn fractional(
+    c: &mut Checker<'_>,
+    spec: &model::DesignSpec,
+    factors: &[model::FactorSpec],
+    count: Option<usize>,
+    request: &mut DesignRequest,
+) {
+    use crate::design::{catalogue, fraction};
+    let at = FieldPath::of(&["design"]);
+    let k = factors.len();
+    let ids: Vec<&str> = factors.iter().map(|f| f.id.as_str()).collect();
+    let built = if let Some(texts) = &spec.generators {
+        let mut generators = Vec::new();
+        let mut ok = true;
+        for (i, text) in texts.iter().enumerate() {
+            match fraction::parse_generator(text, &ids) {
+                Ok(g) => generators.push(g),
+                Err(e) => {
+                    ok = false;
+                    c.report(&at.key("generators").index(i), e.to_string(), None);
+                }
+            }
+        }
+        if !ok {
+            return;
+        }
+        if generators.is_empty() {
+            c.report(
+                &at.key("generators"),
+                "no generators are given",
+                Some("expected at least one, e.g. `E = ABCD`; with none, use kind full-factorial".into()),
+            );
+            return;
+        }
+        match fraction::Fraction::new(k, generators) {
+            Ok(f) => {
+                request.generator_texts = texts.clone();
+                f
+            }
+            Err(e) => {
+                c.report(&at.key("generators"), e.to_string(), None);
+                return;
+            }
+        }
+    } else {
+        match catalogue::choose(k, spec.resolution, count) {
+            Ok(entry) => {
+                let letters: Vec<String> = (0..k).map(crate::design::word::factor_label).collect();
+                let letter_refs: Vec<&str> = letters.iter().map(String::as_str).collect();
+                let generators: Result<Vec<_>, _> = entry
+                    .generators
+                    .iter()
+                    .map(|g| fraction::parse_generator(g, &letter_refs))
+                    .collect();
+                match generators.map_err(|e| e.to_string()).and_then(|g| {
+                    fraction::Fraction::new(k, g).map_err(|e| e.to_string())
+                }) {
+                    Ok(f) => {
+                        request.generator_texts =
+                            entry.generators.iter().map(|g| (*g).to_string()).collect();
+                        request.catalogue = Some(format!(
+                            "2^({k}−{}) resolution {} from the catalogue (Montgomery, Design and Analysis of Experiments, Table 8-14)",
+                            entry.generators.len(),
+                            catalogue::roman(entry.resolution)
+                        ));
+                        f
+                    }
+                    Err(e) => {
+                        c.report(&at.key("kind"), format!("internal catalogue error: {e}"), None);
+                        return;
+                    }
+                }
+            }
+            Err(e) => {
+                let field = if spec.resolution.is_some() {
+                    at.key("resolution")
+                } else if count.is_some() {
+                    at.key("runs")
+                } else {
+                    at.key("kind")
+                };
+                let expected = if spec.resolution.is_none() && count.is_none() {
+                    Some("give `generators`, `resolution` or `runs`".to_string())
+                } else {
+                    None
+                };
+                c.report(&field, e.to_string(), expected);
+                return;
+            }
+        }
+    };
+    if let (Some(wanted), Some(got)) = (spec.resolution, built.resolution) {
+        if got < wanted && spec.generators.is_some() {
+            c.report(
+                &at.key("resolution"),
+                format!("the generators give resolution {got}, below the {wanted} asked for"),
+                Some("expected generators whose shortest defining word is long enough, or a lower resolution".into()),
+            );
+        }
+    }
+    if let Some(n) = count {
+        if spec.generators.is_some() && n != built.runs() {
+            c.report(
+                &at.key("runs"),
+                format!("the generators give {} runs, not {n}", built.runs()),
+                Some(format!("expected runs: {} or no `runs`", built.runs())),
+            );
+        }
+    }
+    if request.foldover && built.resolution != Some(3) {
+        c.report(
+            &at.key("foldover"),
+            format!(
+                "fold-over is for resolution III designs; this one has resolution {}",
+                built.resolution.map_or("(none)".to_string(), |r| r.to_string())
+            ),
+            Some("expected `foldover` only with a resolution III fraction".into()),
+        );
+    }
+    request.fraction = Some(built);
 }
 
 fn explicit_runs(
@@ -307,7 +551,7 @@ fn explicit_runs(
     factors: &[model::FactorSpec],
     at: &FieldPath,
 ) -> Vec<ExplicitRun> {
-    let Some(rows) = &spec.runs else {
+    let Some(model::RunsSpec::List(rows)) = &spec.runs else {
         c.report(
             at,
             "an explicit design needs its runs",
@@ -393,6 +637,17 @@ fn explicit_runs(
         );
     }
     out
+}
+
+/// A level computed as nominal ± delta, rounded to 12 significant digits so that binary
+/// floating point does not print 3.0 − 0.1 as 2.9000000000000004.
+fn tidy(x: f64) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        return x;
+    }
+    let digits = 12 - 1 - x.abs().log10().floor() as i32;
+    let scale = 10f64.powi(digits.clamp(-300, 300));
+    (x * scale).round() / scale
 }
 
 /// The run id of a YAML value: integers keep their decimal text.

@@ -138,6 +138,11 @@ fn first_tab_indent(text: &str) -> Option<(usize, usize)> {
 
 fn strip_position_prefix(message: &str) -> String {
     let m = message.trim().trim_start_matches("error: ");
+    // The position is printed once, in front; drop saphyr's own " at line N, column M".
+    let m = match m.rfind(" at line ") {
+        Some(i) if m[i..].contains("column") => &m[..i],
+        _ => m,
+    };
     if let Some(rest) = m.strip_prefix("line ") {
         if let Some((_, after)) = rest.split_once(": ") {
             return after.to_string();

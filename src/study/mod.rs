@@ -15,7 +15,7 @@ use std::path::PathBuf;
 
 pub use diagnostic::{Diagnostic, Diagnostics, FieldPath};
 pub use load::load;
-pub use model::{DesignKind, LimitUnit, NominalPlacement, PercentOf};
+pub use model::{DesignKind, LimitUnit, PercentOf};
 
 /// A run identifier as the run sheet prints it (integers are kept as their decimal text).
 #[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize)]
@@ -48,8 +48,8 @@ pub struct Study {
     pub responses: Vec<Response>,
     /// Practical limits on effects.
     pub limits: Vec<EffectLimit>,
-    /// Where the results come from.
-    pub results: model::ResultsSpec,
+    /// Where the results come from (`None` while the study is being planned).
+    pub results: Option<model::ResultsSpec>,
     /// Analyst notes.
     pub notes: Option<String>,
 }
@@ -127,6 +127,21 @@ pub enum Setting {
     Level(String),
 }
 
+/// Where the nominal runs go in the run order.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Placement {
+    /// At the start, at the end and evenly between.
+    Spread,
+    /// All first.
+    First,
+    /// All last.
+    Last,
+    /// Shuffled with the other runs.
+    Random,
+    /// One first, then one after every k two-level runs.
+    Every(usize),
+}
+
 /// The design section after checking.
 #[derive(Debug, Clone)]
 pub struct DesignRequest {
@@ -134,10 +149,24 @@ pub struct DesignRequest {
     pub kind: DesignKind,
     /// Runs of an explicit design.
     pub explicit_runs: Vec<ExplicitRun>,
+    /// The fraction of a fractional-factorial or Youden design.
+    pub fraction: Option<crate::design::fraction::Fraction>,
+    /// Generators as written (or as taken from the catalogue).
+    pub generator_texts: Vec<String>,
+    /// Where the generators came from, when chosen from the catalogue.
+    pub catalogue: Option<String>,
+    /// Runs of a Plackett–Burman design.
+    pub pb_runs: Option<usize>,
+    /// Add the mirror-image runs.
+    pub foldover: bool,
+    /// Highest interaction order in alias chains.
+    pub alias_order: u32,
+    /// Least squares for a non-orthogonal explicit design.
+    pub allow_nonorthogonal: bool,
     /// Nominal runs to add (generated designs).
     pub center_points: usize,
     /// Where nominal runs go.
-    pub nominal_runs: NominalPlacement,
+    pub nominal_runs: Placement,
     /// Replicates of the two-level part.
     pub replicates: usize,
     /// Seed for the run order, `None` for standard order.

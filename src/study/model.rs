@@ -26,8 +26,9 @@ pub struct StudyFile {
     /// Acceptance rules declared before the data were seen.
     #[serde(default)]
     pub acceptance: Vec<AcceptanceSpec>,
-    /// The measured values, inline or in a CSV file.
-    pub results: ResultsSpec,
+    /// The measured values, inline or in a CSV file (absent while the study is planned).
+    #[serde(default)]
+    pub results: Option<ResultsSpec>,
     /// Free text by the analyst; printed literally in the report.
     #[serde(default)]
     pub notes: Option<String>,
@@ -89,6 +90,12 @@ pub struct FactorSpec {
 pub enum DesignKind {
     /// All 2^k combinations, run ids in standard order.
     FullFactorial,
+    /// A regular 2^(k−p) fraction from generators or from the catalogue.
+    FractionalFactorial,
+    /// A Plackett–Burman design; unassigned columns become dummy factors.
+    PlackettBurman,
+    /// The Youden–Steiner ruggedness design: 7 columns in 8 runs.
+    Youden,
     /// A design planned elsewhere, given run by run in coded levels.
     Explicit,
 }
@@ -105,6 +112,34 @@ pub enum NominalPlacement {
     Last,
     /// Shuffled with the other runs.
     Random,
+}
+
+/// The `nominal-runs` setting: a named placement or `{every: k}`.
+#[derive(Debug, Clone, Copy, Deserialize, Serialize)]
+#[serde(untagged)]
+pub enum NominalRunsSpec {
+    /// `spread`, `first`, `last` or `random`.
+    Named(NominalPlacement),
+    /// A nominal run first and then after every k two-level runs.
+    Every(EverySpec),
+}
+
+/// `{every: k}`.
+#[derive(Debug, Clone, Copy, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct EverySpec {
+    /// Two-level runs between nominal runs.
+    pub every: u32,
+}
+
+/// `runs:` — a number of runs (generated designs) or the run list (explicit designs).
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(untagged)]
+pub enum RunsSpec {
+    /// Number of two-level runs.
+    Count(u64),
+    /// Runs of an explicit design.
+    List(Vec<BTreeMap<String, serde_json::Value>>),
 }
 
 /// The `randomize` setting: `false`, or `{seed: n}`.
@@ -131,15 +166,33 @@ pub struct SeedSpec {
 pub struct DesignSpec {
     /// Kind of design.
     pub kind: DesignKind,
-    /// Runs of an explicit design.
+    /// Number of runs (fractional factorial, Plackett–Burman) or the run list (explicit).
     #[serde(default)]
-    pub runs: Option<Vec<BTreeMap<String, serde_json::Value>>>,
+    pub runs: Option<RunsSpec>,
+    /// Generators of a fractional factorial, e.g. `E = ABCD` or `lot = temp*ph`.
+    #[serde(default)]
+    pub generators: Option<Vec<String>>,
+    /// Smallest acceptable resolution (catalogue choice of a fractional factorial).
+    #[serde(default)]
+    pub resolution: Option<u32>,
+    /// At least this many dummy columns (Plackett–Burman, Youden).
+    #[serde(default)]
+    pub dummies: Option<u32>,
+    /// Add the mirror-image runs (full fold-over).
+    #[serde(default)]
+    pub foldover: Option<bool>,
+    /// Highest interaction order shown in alias chains (default 2).
+    #[serde(default)]
+    pub alias_order: Option<u32>,
+    /// Accept a non-orthogonal explicit design; effects then come from least squares.
+    #[serde(default)]
+    pub allow_nonorthogonal: Option<bool>,
     /// Number of nominal (centre) runs added.
     #[serde(default)]
     pub center_points: Option<u32>,
     /// Where the nominal runs go in the run order.
     #[serde(default)]
-    pub nominal_runs: Option<NominalPlacement>,
+    pub nominal_runs: Option<NominalRunsSpec>,
     /// How many times the whole two-level design is run.
     #[serde(default)]
     pub replicates: Option<u32>,

@@ -38,8 +38,15 @@ pub struct DataFile {
 
 /// Reads the results of `study` for the runs of `design`.
 pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics> {
-    let determinations = study.results.determinations.unwrap_or(1) as usize;
-    let (rows, data_file) = match (&study.results.file, &study.results.runs) {
+    let Some(spec) = &study.results else {
+        return Err(Diagnostics(vec![study.diagnostic(
+            &FieldPath::of(&["results"]),
+            "the study has no results yet",
+            Some("expected a `results:` section with `file: results.csv` or inline `runs:` (`plateau design` prints the run sheet to fill in)".to_string()),
+        )]));
+    };
+    let determinations = spec.determinations.unwrap_or(1) as usize;
+    let (rows, data_file) = match (&spec.file, &spec.runs) {
         (Some(file), _) => {
             let (rows, data) = csv_rows(study, design, file)?;
             (rows, Some(data))
@@ -356,6 +363,17 @@ fn csv_rows(
             }
         }
         if let Some(planned_run) = planned.get(&run) {
+            if let Some(col) = header.iter().position(|h| h == "order") {
+                let cell = record.get(col).unwrap_or_default();
+                if !cell.is_empty() && cell.parse::<usize>().ok() != Some(planned_run.order) {
+                    problems.push(one(
+                        line,
+                        "order",
+                        format!("run `{run}`: order `{cell}` differs from the planned run order"),
+                        Some(format!("expected {} as planned (or leave the `order` column out)", planned_run.order)),
+                    ));
+                }
+            }
             for (j, f) in study.factors.iter().enumerate() {
                 let Some(col) = header.iter().position(|h| h == &f.id) else { continue };
                 let cell = record.get(col).unwrap_or_default();

@@ -1,0 +1,54 @@
+//! The run sheet: the table a laboratory works from, in run order, with one empty column per
+//! response, which `results: file:` reads back unchanged once filled in.
+
+use crate::study::{Setting, Study};
+
+use super::Design;
+
+/// Whether settings are printed in real units or coded levels.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Levels {
+    /// Real units (numbers and level names).
+    Real,
+    /// −1, 0, +1.
+    Coded,
+}
+
+/// The header and rows of the run sheet, in run order.
+pub fn rows(study: &Study, design: &Design, levels: Levels) -> (Vec<String>, Vec<Vec<String>>) {
+    let mut header = vec!["run".to_string(), "order".to_string()];
+    header.extend(study.factors.iter().map(|f| f.id.clone()));
+    header.extend(study.responses.iter().map(|r| r.id.clone()));
+    let rows = design
+        .runs_in_order()
+        .into_iter()
+        .map(|run| {
+            let mut row = vec![run.id.0.clone(), run.order.to_string()];
+            for (f, c) in study.factors.iter().zip(&run.coded) {
+                row.push(match levels {
+                    Levels::Coded => c.to_string(),
+                    Levels::Real => match f.setting(*c) {
+                        Setting::Value(v) => v.to_string(),
+                        Setting::Level(l) => l,
+                    },
+                });
+            }
+            row.extend(study.responses.iter().map(|_| String::new()));
+            row
+        })
+        .collect();
+    (header, rows)
+}
+
+/// The run sheet as CSV text.
+pub fn csv(study: &Study, design: &Design, levels: Levels) -> String {
+    let (header, rows) = rows(study, design, levels);
+    let mut w = csv::WriterBuilder::new()
+        .terminator(csv::Terminator::Any(b'\n'))
+        .from_writer(Vec::new());
+    let _ = w.write_record(&header);
+    for row in &rows {
+        let _ = w.write_record(row);
+    }
+    String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
+}
