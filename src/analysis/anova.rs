@@ -43,6 +43,9 @@ pub struct AnovaTable {
     pub total: AnovaRow,
     /// Number of determinations used.
     pub n_observations: usize,
+    /// Of those, determinations in two-level (non-nominal) runs; set by the caller, who knows
+    /// which runs are nominal (0 until then).
+    pub n_observations_two_level: usize,
     /// Why F and p are missing, if they are.
     pub note: Option<String>,
     /// Conditions the reader must know, e.g. lost orthogonality.
@@ -180,6 +183,7 @@ pub fn anova(
         pure_error: row("pure error", ss_pe, df_pe),
         total: row("total", ss_total, n - 1),
         n_observations: n,
+        n_observations_two_level: 0,
         note,
         warnings: orthogonality_warnings(&x, model_columns),
     })

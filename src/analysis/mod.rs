@@ -10,13 +10,14 @@ pub mod decision;
 pub mod drift;
 pub mod effects;
 pub mod quantile;
+pub mod judge;
 pub mod text;
 
 use serde::Serialize;
 
-use crate::design::{Design, TermMask, term_factors, term_order};
+use crate::design::{Design, TermMask, term_factors};
 use crate::study::results::{DataFile, Measurements};
-use crate::study::{Diagnostics, FieldPath, LimitUnit, PercentOf, Study};
+use crate::study::{Diagnostics, LimitUnit, Study};
 
 /// The whole analysis of one study (the `analysis.json` document).
 #[derive(Debug, Clone, Serialize)]
@@ -27,8 +28,10 @@ pub struct Analysis {
     pub design: DesignSummary,
     /// One entry per response.
     pub responses: Vec<ResponseAnalysis>,
-    /// Factors with a relevant main effect on any response (ids, file order).
+    /// Factors with a relevant main effect on any assay response (ids, file order).
     pub non_robust_factors: Vec<String>,
+    /// Factors with a significant main effect on any assay response (ids, file order).
+    pub significant_factors: Vec<String>,
     /// Where the numbers come from.
     pub provenance: Provenance,
 }
@@ -104,12 +107,49 @@ pub struct ResponseAnalysis {
     pub nominal_mean: Option<f64>,
     /// Decimal places of the data (declared or found), for the report.
     pub decimals: u32,
+    /// `assay` or `suitability`.
+    pub role: String,
+    /// Every run's value in run order (raw and, with a drift correction, corrected).
+    pub values: Vec<RunValue>,
     /// Effects, main effects first.
     pub effects: Vec<Effect>,
     /// The practical limits declared for this response.
     pub limits: Vec<LimitSummary>,
+    /// Every criterion (effect limits and statistical ones) with its numbers.
+    pub criteria: Vec<judge::CriterionSummary>,
+    /// ANOVA with pure error, when the design has replicated settings.
+    pub anova: Option<anova::AnovaTable>,
+    /// Curvature from the nominal runs.
+    pub curvature: Option<curvature::Curvature>,
+    /// Drift seen in the nominal runs.
+    pub drift: Option<judge::DriftSummary>,
+    /// Worst case within the studied domain (suitability responses).
+    pub worst_case: Option<judge::WorstCaseSummary>,
+    /// Operating ranges proposed for factors with significant or relevant effects.
+    pub control_ranges: Vec<judge::ControlRange>,
+    /// Uncertainty contributions of the factors with a routine variation.
+    pub uncertainty: Option<judge::UncertaintySummary>,
     /// The verdict.
     pub verdict: Verdict,
+    /// Remarks the reader must see (excluded runs, least squares, limits of the design).
+    pub notes: Vec<String>,
+}
+
+/// One run's value of a response.
+#[derive(Debug, Clone, Serialize)]
+pub struct RunValue {
+    /// Run id.
+    pub run: String,
+    /// Run order.
+    pub order: usize,
+    /// Nominal run.
+    pub nominal: bool,
+    /// Excluded from the evaluation.
+    pub excluded: bool,
+    /// Mean of the determinations as measured.
+    pub raw: f64,
+    /// After drift correction (equal to `raw` without one).
+    pub value: f64,
 }
 
 /// One effect.
@@ -133,6 +173,13 @@ pub struct Effect {
     pub aliases: Vec<Vec<String>>,
     /// |effect| (or |% effect|) above the declared limit; `null` when no limit applies.
     pub relevant: Option<bool>,
+    /// |effect| above the first statistical criterion's E_crit (Lenth: ME); `null` when none
+    /// applies or the column estimates error.
+    pub significant: Option<bool>,
+    /// One verdict per statistical criterion, in `criteria` order of the significance rules.
+    pub significance: Vec<Option<bool>>,
+    /// Lenth only: |effect| above the simultaneous margin of error SME.
+    pub exceeds_sme: Option<bool>,
 }
 
 /// A declared practical limit.
@@ -149,8 +196,14 @@ pub struct LimitSummary {
 /// The verdict on one response.
 #[derive(Debug, Clone, Serialize)]
 pub struct Verdict {
-    /// True when no main effect is relevant; `null` when no limit was declared.
+    /// Practical verdict: true when no main effect is relevant; `null` when no limit was
+    /// declared.
     pub robust: Option<bool>,
+    /// Statistical verdict: true when no main effect is significant; `null` when no
+    /// statistical criterion was declared (or it cannot judge).
+    pub no_significant_effect: Option<bool>,
+    /// Factors (ids) whose main effect is significant.
+    pub significant_factors: Vec<String>,
     /// Factors (ids) whose main effect is relevant.
     pub relevant_factors: Vec<String>,
     /// Interactions (labels) that are relevant.
@@ -161,29 +214,38 @@ pub struct Verdict {
 pub fn analyse(study: &Study, design: &Design, data: &Measurements) -> Result<Analysis, Diagnostics> {
     let mut responses = Vec::new();
     let mut problems = Diagnostics::default();
-    for (r, response) in study.responses.iter().enumerate() {
-        match analyse_response(study, design, data, r) {
+    for r in 0..study.responses.len() {
+        match judge::analyse_response(study, design, data, r) {
             Ok(a) => responses.push(a),
-            Err(problem) => problems.push(study.diagnostic(
-                &FieldPath::of(&["responses"]).index(r).key("percent-of"),
-                problem.0,
-                Some(problem.1),
-            )),
+            Err(problem) => problems.push(study.diagnostic(&problem.field, problem.problem, problem.expected)),
         }
-        let _ = response;
     }
     if !problems.is_empty() {
         return Err(problems);
     }
-    let mut non_robust = Vec::new();
-    for f in &study.factors {
-        if responses
-            .iter()
-            .any(|r| r.verdict.relevant_factors.contains(&f.id))
-        {
-            non_robust.push(f.id.clone());
-        }
-    }
+    let assay = |r: &&ResponseAnalysis| r.role == "assay";
+    let non_robust: Vec<String> = study
+        .factors
+        .iter()
+        .filter(|f| {
+            responses
+                .iter()
+                .filter(assay)
+                .any(|r| r.verdict.relevant_factors.contains(&f.id))
+        })
+        .map(|f| f.id.clone())
+        .collect();
+    let significant: Vec<String> = study
+        .factors
+        .iter()
+        .filter(|f| {
+            responses
+                .iter()
+                .filter(assay)
+                .any(|r| r.verdict.significant_factors.contains(&f.id))
+        })
+        .map(|f| f.id.clone())
+        .collect();
     Ok(Analysis {
         study: StudySummary {
             id: study.info.id.clone(),
@@ -193,6 +255,7 @@ pub fn analyse(study: &Study, design: &Design, data: &Measurements) -> Result<An
         design: design_summary(design),
         responses,
         non_robust_factors: non_robust,
+        significant_factors: significant,
         provenance: Provenance {
             plateau_version: env!("CARGO_PKG_VERSION").to_string(),
             study_file: study
@@ -233,22 +296,8 @@ fn design_summary(design: &Design) -> DesignSummary {
     }
 }
 
-/// Per-run means of one response, in the order of `design.runs`.
-fn run_means(design: &Design, data: &Measurements, r: usize) -> Vec<f64> {
-    design
-        .runs
-        .iter()
-        .map(|run| {
-            data.values
-                .get(&run.id)
-                .and_then(|v| v.get(r))
-                .map(|vals| mean(vals))
-                .unwrap_or(f64::NAN)
-        })
-        .collect()
-}
-
-fn mean(values: &[f64]) -> f64 {
+/// Arithmetic mean (NaN for no values).
+pub fn mean(values: &[f64]) -> f64 {
     if values.is_empty() {
         return f64::NAN;
     }
@@ -265,189 +314,4 @@ pub fn data_decimals(values: &[f64]) -> u32 {
                 .all(|v| ((v * scale).round() - v * scale).abs() < 1e-6 * scale.max(1.0))
         })
         .unwrap_or(6)
-}
-
-fn analyse_response(
-    study: &Study,
-    design: &Design,
-    data: &Measurements,
-    r: usize,
-) -> Result<ResponseAnalysis, (String, String)> {
-    let response = &study.responses[r];
-    let means = run_means(design, data, r);
-    let (two_level_rows, two_level_y): (Vec<&[i8]>, Vec<f64>) = design
-        .runs
-        .iter()
-        .zip(&means)
-        .filter(|(run, _)| !run.nominal)
-        .map(|(run, y)| (run.coded.as_slice(), *y))
-        .unzip();
-    let nominal_y: Vec<f64> = design
-        .runs
-        .iter()
-        .zip(&means)
-        .filter(|(run, _)| run.nominal)
-        .map(|(_, y)| *y)
-        .collect();
-    let design_mean = mean(&two_level_y);
-    let nominal_mean = (!nominal_y.is_empty()).then(|| mean(&nominal_y));
-    let (reference, reference_kind) = match (response.percent_of, nominal_mean) {
-        (PercentOf::Nominal, Some(m)) => (m, "nominal-mean"),
-        _ => (design_mean, "design-mean"),
-    };
-    if reference == 0.0 || !reference.is_finite() {
-        return Err((
-            format!(
-                "percent effects of `{}` cannot be taken against a {} of {reference}",
-                response.id,
-                if reference_kind == "nominal-mean" { "nominal-run mean" } else { "design mean" }
-            ),
-            "expected a reference different from zero; judge this response with an absolute limit (`unit: absolute`) instead".into(),
-        ));
-    }
-    let fast = if design.complete_factorial {
-        fwht_effects(design, &two_level_y)
-    } else {
-        None
-    };
-    let fitted = if design.least_squares {
-        Some(least_squares_effects(&two_level_rows, &two_level_y, design.k())?)
-    } else {
-        None
-    };
-    let limits: Vec<&crate::study::EffectLimit> =
-        study.limits.iter().filter(|l| l.response == r).collect();
-    let mut effects = Vec::with_capacity(design.contrasts.len());
-    for contrast in &design.contrasts {
-        let e = match (&fast, &fitted) {
-            (Some(all), _) => all.get(contrast.term as usize).copied(),
-            (None, Some(map)) => map.get(&contrast.term).copied(),
-            (None, None) => effects::effect(&two_level_rows, &two_level_y, contrast.term),
-        };
-        let Some(e) = e else { continue };
-        let percent = 100.0 * e / reference;
-        let dummy = term_factors(contrast.term)
-            .iter()
-            .any(|&j| j >= study.factors.len());
-        let relevant = (!limits.is_empty() && !dummy).then(|| {
-            limits.iter().any(|l| match l.unit {
-                LimitUnit::Percent => percent.abs() > l.limit,
-                LimitUnit::Absolute => e.abs() > l.limit,
-            })
-        });
-        let ids = |t: TermMask| -> Vec<String> {
-            term_factors(t)
-                .into_iter()
-                .filter_map(|i| design.column_ids.get(i).cloned())
-                .collect()
-        };
-        let label = if contrast.is_clean() {
-            design.label(contrast.term)
-        } else {
-            contrast
-                .chain
-                .iter()
-                .map(|(t, s)| format!("{}{}", if *s < 0 { "−" } else { "" }, design.label(*t)))
-                .collect::<Vec<_>>()
-                .join(" = ")
-        };
-        effects.push(Effect {
-            factors: ids(contrast.term),
-            label,
-            order: term_order(contrast.term),
-            effect: e,
-            percent,
-            estimable: contrast.is_clean(),
-            dummy,
-            aliases: contrast.chain.iter().skip(1).map(|(t, _)| ids(*t)).collect(),
-            relevant,
-        });
-    }
-    let verdict = Verdict {
-        robust: (!limits.is_empty()).then(|| {
-            !effects
-                .iter()
-                .any(|e| e.order == 1 && !e.dummy && e.relevant == Some(true))
-        }),
-        relevant_factors: effects
-            .iter()
-            .filter(|e| e.order == 1 && !e.dummy && e.relevant == Some(true))
-            .flat_map(|e| e.factors.clone())
-            .collect(),
-        relevant_interactions: effects
-            .iter()
-            .filter(|e| e.order > 1 && e.relevant == Some(true))
-            .map(|e| e.label.clone())
-            .collect(),
-    };
-    let all_values: Vec<f64> = data
-        .values
-        .values()
-        .filter_map(|v| v.get(r))
-        .flatten()
-        .copied()
-        .collect();
-    Ok(ResponseAnalysis {
-        id: response.id.clone(),
-        name: response.name.clone(),
-        unit: response.unit.clone(),
-        reference,
-        reference_kind: reference_kind.to_string(),
-        design_mean,
-        nominal_mean,
-        decimals: response.decimals.unwrap_or_else(|| data_decimals(&all_values)),
-        effects,
-        limits: limits
-            .iter()
-            .map(|l| LimitSummary {
-                limit: l.limit,
-                unit: l.unit,
-                basis: l.basis.clone(),
-            })
-            .collect(),
-        verdict,
-    })
-}
-
-/// Main effects of a non-orthogonal two-level design by least squares: y = b0 + Σ b_j x_j,
-/// E_j = 2·b_j (so that E keeps its meaning of a change from −1 to +1), keyed by term mask.
-fn least_squares_effects(
-    rows: &[&[i8]],
-    y: &[f64],
-    k: usize,
-) -> Result<std::collections::BTreeMap<TermMask, f64>, (String, String)> {
-    let n = rows.len();
-    let x = nalgebra::DMatrix::from_fn(n, k + 1, |i, j| {
-        if j == 0 {
-            1.0
-        } else {
-            f64::from(rows.get(i).and_then(|r| r.get(j - 1)).copied().unwrap_or(0))
-        }
-    });
-    let yv = nalgebra::DVector::from_column_slice(y);
-    let svd = x.svd(true, true);
-    let rank = svd.rank(1e-9);
-    if rank < k + 1 {
-        return Err((
-            format!("the design matrix has rank {rank}, so {} coefficients cannot all be estimated", k + 1),
-            "expected runs whose factor columns are linearly independent".into(),
-        ));
-    }
-    let b = svd
-        .solve(&yv, 1e-12)
-        .map_err(|e| (format!("least squares failed ({e})"), String::new()))?;
-    Ok((0..k).map(|j| (1u64 << j, 2.0 * b[j + 1])).collect())
-}
-
-/// Effects of a complete factorial by the fast transform, replicates averaged first.
-fn fwht_effects(design: &Design, two_level_y: &[f64]) -> Option<Vec<f64>> {
-    let n = design.base_runs;
-    if n == 0 || two_level_y.len() != n * design.replicates {
-        return None;
-    }
-    let mut y = vec![0.0; n];
-    for (i, v) in two_level_y.iter().enumerate() {
-        y[i % n] += v / design.replicates as f64;
-    }
-    effects::all_effects_fwht(&y)
 }

@@ -12,7 +12,8 @@ use super::diagnostic::{Diagnostic, Diagnostics, FieldPath, closest};
 use super::locate::Locator;
 use super::model::{self, DesignKind, LimitUnit, NominalPlacement, PercentOf, StudyFile};
 use super::{
-    DesignRequest, EffectLimit, ExplicitRun, Factor, Levels, Placement, Response, RunId, Study,
+    DesignRequest, EffectLimit, ExplicitRun, Factor, Levels, Placement, Response, RunId,
+    SignificanceRule, Study, SuitabilityLimit,
 };
 
 /// Most factors a study may have (the largest Plackett–Burman design has 47 columns).
@@ -55,7 +56,15 @@ pub fn study(
     let factors = factors(&mut c, &file.factors);
     let design = design(&mut c, &file.design, &file.factors);
     let responses = responses(&mut c, &file, &design);
-    let limits = limits(&mut c, &file, &responses);
+    let (limits, significance, suitability) = acceptance(&mut c, &file, &responses);
+    let excluded = exclusions(&mut c, &file.excluded);
+    if file.study.source_reference.is_some() && file.study.source != Some(model::SourceKind::Development) {
+        c.report(
+            &FieldPath::of(&["study", "source-reference"]),
+            "a source reference is given but the source is not `development`",
+            Some("expected `source: development` with it, or remove `source-reference`".into()),
+        );
+    }
     if let Some(results) = &file.results {
         check_results_spec(&mut c, results);
     }
@@ -63,6 +72,7 @@ pub fn study(
     if !c.problems.is_empty() {
         return Err(c.problems.sorted());
     }
+    let source = file.study.source.unwrap_or(model::SourceKind::Validation);
     Ok(Study {
         path: path.to_path_buf(),
         file_name: file_name.to_string(),
@@ -73,6 +83,10 @@ pub fn study(
         design,
         responses,
         limits,
+        significance,
+        suitability,
+        excluded,
+        source,
         results: file.results,
         notes: file.notes,
     })
@@ -138,6 +152,17 @@ fn factors(c: &mut Checker<'_>, specs: &[model::FactorSpec]) -> Vec<Factor> {
                 unit: f.unit.clone(),
                 levels,
                 justification: f.justification.clone(),
+                routine: f.routine.map(|a| {
+                    use crate::analysis::decision::Distribution;
+                    (
+                        a,
+                        match f.distribution {
+                            None | Some(model::DistributionSpec::Rectangular) => Distribution::Rectangular,
+                            Some(model::DistributionSpec::Triangular) => Distribution::Triangular,
+                            Some(model::DistributionSpec::Normal) => Distribution::Normal95,
+                        },
+                    )
+                }),
             });
         }
     }
@@ -286,6 +311,10 @@ fn design(
         nominal_runs,
         replicates: spec.replicates.unwrap_or(1) as usize,
         seed,
+        drift_correction: spec.drift_correction.map(|d| match d {
+            model::DriftCorrectionSpec::Additive => crate::analysis::drift::CorrectionMode::Additive,
+            model::DriftCorrectionSpec::Relative => crate::analysis::drift::CorrectionMode::Relative,
+        }),
     };
     let kind_name = kind_text(spec.kind);
     let not_here = |c: &mut Checker<'_>, name: &str, present: bool, hint: &str| {
@@ -704,14 +733,21 @@ fn responses(c: &mut Checker<'_>, file: &StudyFile, design: &DesignRequest) -> V
             unit: r.unit.clone(),
             percent_of,
             decimals: r.decimals,
+            role: r.role.unwrap_or(model::Role::Assay),
         });
     }
     out
 }
 
-fn limits(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> Vec<EffectLimit> {
-    let mut out = Vec::new();
+type Rules = (Vec<EffectLimit>, Vec<SignificanceRule>, Vec<SuitabilityLimit>);
+
+fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> Rules {
+    use crate::analysis::criterion::Method;
+    let mut limits = Vec::new();
+    let mut significance = Vec::new();
+    let mut suitability = Vec::new();
     let ids: Vec<&str> = responses.iter().map(|r| r.id.as_str()).collect();
+    let factor_ids: Vec<&str> = file.factors.iter().map(|f| f.id.as_str()).collect();
     for (i, a) in file.acceptance.iter().enumerate() {
         let at = FieldPath::of(&["acceptance"]).index(i);
         let Some(response) = ids.iter().position(|id| *id == a.response) else {
@@ -725,19 +761,189 @@ fn limits(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> Vec<
             );
             continue;
         };
-        let Some(limit) = a.effect_limit else {
+        let kinds = [
+            a.effect_limit.is_some(),
+            a.significance.is_some(),
+            a.min.is_some() || a.max.is_some(),
+        ]
+        .iter()
+        .filter(|k| **k)
+        .count();
+        if kinds == 0 {
             c.report(
                 &at,
                 "the acceptance rule sets no limit",
-                Some("expected `effect-limit: <number>`".into()),
+                Some("expected `effect-limit: <number>`, `significance: {method: ...}` or `min:`/`max:`".into()),
             );
             continue;
+        }
+        if kinds > 1 {
+            c.report(
+                &at,
+                "one acceptance entry mixes several rules",
+                Some("expected one rule per entry (effect-limit, significance, or min/max); list several entries for one response".into()),
+            );
+            continue;
+        }
+        if a.effect_limit.is_none() && (a.unit.is_some() || a.basis.is_some()) {
+            let name = if a.unit.is_some() { "unit" } else { "basis" };
+            c.report(
+                &at.key(name),
+                format!("`{name}` belongs to an `effect-limit`"),
+                Some("expected it next to `effect-limit`".into()),
+            );
+        }
+        if let Some(limit) = a.effect_limit {
+            limits.push(EffectLimit {
+                response,
+                limit,
+                unit: a.unit.unwrap_or(LimitUnit::Percent),
+                basis: a.basis.clone(),
+            });
+        }
+        if let (Some(min), Some(max)) = (a.min, a.max) {
+            if min >= max {
+                c.report(
+                    &at.key("min"),
+                    format!("min ({min}) is not below max ({max})"),
+                    Some("expected min < max".into()),
+                );
+            }
+        }
+        if a.min.is_some() || a.max.is_some() {
+            suitability.push(SuitabilityLimit {
+                response,
+                min: a.min,
+                max: a.max,
+            });
+        }
+        let Some(sig) = &a.significance else { continue };
+        let here = at.key("significance");
+        let method = match sig.method {
+            model::MethodSpec::Precision => Method::Precision,
+            model::MethodSpec::Dummies => Method::Dummies,
+            model::MethodSpec::Negligible => Method::Negligible,
+            model::MethodSpec::Dong => Method::Dong,
+            model::MethodSpec::Lenth => Method::Lenth,
+            model::MethodSpec::Anova => Method::Anova,
         };
-        out.push(EffectLimit {
+        let only_for = |c: &mut Checker<'_>, name: &str, present: bool, owner: &str| {
+            if present {
+                c.report(
+                    &here.key(name),
+                    format!("`{name}` does not apply to method {}", method_text(method)),
+                    Some(format!("`{name}` belongs to method {owner}")),
+                );
+            }
+        };
+        if method != Method::Precision {
+            only_for(c, "s", sig.s.is_some(), "precision");
+            only_for(c, "df", sig.df.is_some(), "precision");
+            only_for(c, "source", sig.source.is_some(), "precision");
+            only_for(c, "determinations", sig.determinations.is_some(), "precision");
+        }
+        if method != Method::Negligible {
+            only_for(c, "terms", sig.terms.is_some(), "negligible");
+        }
+        if method == Method::Precision {
+            for (name, present) in [("s", sig.s.is_some()), ("df", sig.df.is_some())] {
+                if !present {
+                    c.report(
+                        &here.key(name),
+                        format!("method precision needs `{name}`"),
+                        Some("expected `s` (the standard deviation), `df` (its degrees of freedom) and `source` (where it comes from)".into()),
+                    );
+                }
+            }
+        }
+        let mut terms = Vec::new();
+        if method == Method::Negligible {
+            match &sig.terms {
+                None => c.report(
+                    &here.key("terms"),
+                    "method negligible needs the list of terms assumed negligible",
+                    Some("expected e.g. `terms: [temp×ph×flow]` (factor ids joined by × or *)".into()),
+                ),
+                Some(list) => {
+                    for (j, t) in list.iter().enumerate() {
+                        match parse_term(t, &factor_ids) {
+                            Ok(mask) => terms.push((t.clone(), mask)),
+                            Err(e) => c.report(&here.key("terms").index(j), e, Some(format!("expected factor ids joined by × or *, from: {}", factor_ids.join(", ")))),
+                        }
+                    }
+                }
+            }
+        }
+        significance.push(SignificanceRule {
             response,
-            limit,
-            unit: a.unit.unwrap_or(LimitUnit::Percent),
-            basis: a.basis.clone(),
+            entry: i,
+            method,
+            alpha: sig.alpha.unwrap_or(0.05),
+            s: sig.s,
+            df: sig.df,
+            source: sig.source.clone(),
+            determinations: sig.determinations.unwrap_or(1) as usize,
+            terms,
+        });
+    }
+    (limits, significance, suitability)
+}
+
+/// The method's name as written in the study file.
+pub fn method_text(method: crate::analysis::criterion::Method) -> &'static str {
+    use crate::analysis::criterion::Method;
+    match method {
+        Method::Precision => "precision",
+        Method::Dummies => "dummies",
+        Method::Negligible => "negligible",
+        Method::Dong => "dong",
+        Method::Lenth => "lenth",
+        Method::Anova => "anova",
+    }
+}
+
+/// A term written as factor ids joined by `×`, `*` or `x` surrounded by spaces.
+pub fn parse_term(text: &str, factor_ids: &[&str]) -> Result<u64, String> {
+    let mut mask = 0u64;
+    let parts: Vec<&str> = text
+        .split(['×', '*'])
+        .map(str::trim)
+        .filter(|p| !p.is_empty())
+        .collect();
+    if parts.is_empty() {
+        return Err(format!("`{text}` names no factor"));
+    }
+    for part in parts {
+        let Some(i) = factor_ids.iter().position(|f| *f == part) else {
+            return Err(format!("`{part}` in `{text}` is not a factor id"));
+        };
+        let bit = 1u64 << i;
+        if mask & bit != 0 {
+            return Err(format!("`{part}` appears twice in `{text}`"));
+        }
+        mask |= bit;
+    }
+    Ok(mask)
+}
+
+fn exclusions(c: &mut Checker<'_>, specs: &[model::ExclusionSpec]) -> Vec<super::Exclusion> {
+    let mut seen = BTreeSet::new();
+    let mut out = Vec::new();
+    for (i, e) in specs.iter().enumerate() {
+        let at = FieldPath::of(&["excluded"]).index(i);
+        let Some(run) = run_id(&e.run) else { continue };
+        if !seen.insert(run.clone()) {
+            c.report(
+                &at.key("run"),
+                format!("run `{run}` is excluded twice"),
+                Some("expected each excluded run once".into()),
+            );
+            continue;
+        }
+        out.push(super::Exclusion {
+            run,
+            reason: e.reason.clone(),
+            entry: i,
         });
     }
     out

@@ -48,6 +48,14 @@ pub struct Study {
     pub responses: Vec<Response>,
     /// Practical limits on effects.
     pub limits: Vec<EffectLimit>,
+    /// Statistical criteria.
+    pub significance: Vec<SignificanceRule>,
+    /// Limits on system-suitability responses.
+    pub suitability: Vec<SuitabilityLimit>,
+    /// Runs left out of the evaluation.
+    pub excluded: Vec<Exclusion>,
+    /// Where the data come from.
+    pub source: model::SourceKind,
     /// Where the results come from (`None` while the study is being planned).
     pub results: Option<model::ResultsSpec>,
     /// Analyst notes.
@@ -67,6 +75,8 @@ pub struct Factor {
     pub levels: Levels,
     /// Why the range was chosen.
     pub justification: Option<String>,
+    /// Expected routine variation ±a and its distribution.
+    pub routine: Option<(f64, crate::analysis::decision::Distribution)>,
 }
 
 /// The levels of a factor.
@@ -171,6 +181,8 @@ pub struct DesignRequest {
     pub replicates: usize,
     /// Seed for the run order, `None` for standard order.
     pub seed: Option<u64>,
+    /// Drift correction from the nominal runs.
+    pub drift_correction: Option<crate::analysis::drift::CorrectionMode>,
 }
 
 /// One run of an explicit design.
@@ -197,6 +209,53 @@ pub struct Response {
     pub percent_of: PercentOf,
     /// Decimal places requested for the report.
     pub decimals: Option<u32>,
+    /// Assay (decides robustness) or suitability (sets limits).
+    pub role: model::Role,
+}
+
+/// A statistical criterion for the effects of one response.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct SignificanceRule {
+    /// Index of the response.
+    pub response: usize,
+    /// Position of the rule in `acceptance` (for messages).
+    pub entry: usize,
+    /// The error model.
+    pub method: crate::analysis::criterion::Method,
+    /// Significance level.
+    pub alpha: f64,
+    /// Known standard deviation (precision).
+    pub s: Option<f64>,
+    /// Its degrees of freedom (precision).
+    pub df: Option<f64>,
+    /// Where s comes from.
+    pub source: Option<String>,
+    /// Determinations averaged per run (precision).
+    pub determinations: usize,
+    /// Terms declared negligible, as written and as a term mask.
+    pub terms: Vec<(String, u64)>,
+}
+
+/// Limits on a system-suitability response.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct SuitabilityLimit {
+    /// Index of the response.
+    pub response: usize,
+    /// Lowest acceptable value.
+    pub min: Option<f64>,
+    /// Highest acceptable value.
+    pub max: Option<f64>,
+}
+
+/// A run left out of the evaluation.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Exclusion {
+    /// Run id.
+    pub run: RunId,
+    /// Why.
+    pub reason: String,
+    /// Position in `excluded` (for messages).
+    pub entry: usize,
 }
 
 /// A practical limit on the effects of one response.

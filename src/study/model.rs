@@ -29,9 +29,108 @@ pub struct StudyFile {
     /// The measured values, inline or in a CSV file (absent while the study is planned).
     #[serde(default)]
     pub results: Option<ResultsSpec>,
+    /// Runs left out of the evaluation, each with its reason (printed in the report).
+    #[serde(default)]
+    pub excluded: Vec<ExclusionSpec>,
     /// Free text by the analyst; printed literally in the report.
     #[serde(default)]
     pub notes: Option<String>,
+}
+
+/// A run left out of the evaluation.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct ExclusionSpec {
+    /// Run id.
+    pub run: serde_json::Value,
+    /// Why the run is excluded.
+    pub reason: String,
+}
+
+/// Where the study's data come from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum SourceKind {
+    /// A robustness study run for the validation (the default).
+    Validation,
+    /// Data from method development (ICH Q14 allows robustness to be shown there).
+    Development,
+}
+
+/// How a factor's routine variation ±a is distributed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum DistributionSpec {
+    /// u = a/√3.
+    Rectangular,
+    /// u = a/√6.
+    Triangular,
+    /// ±a is a 95 % interval: u = a/1.96.
+    Normal,
+}
+
+/// Drift correction from the nominal runs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum DriftCorrectionSpec {
+    /// y − (ŷ_nom(t) − y_nom(t₀)).
+    Additive,
+    /// y · y_nom(t₀)/ŷ_nom(t).
+    Relative,
+}
+
+/// What a response is for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Role {
+    /// Decides whether the method is robust (the default).
+    Assay,
+    /// Expected to move; its worst case sets a system-suitability limit.
+    Suitability,
+}
+
+/// Significance methods.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum MethodSpec {
+    /// From a known standard deviation.
+    Precision,
+    /// From the dummy columns.
+    Dummies,
+    /// From terms declared negligible.
+    Negligible,
+    /// Dong's algorithm.
+    Dong,
+    /// Lenth's method.
+    Lenth,
+    /// ANOVA with pure error.
+    Anova,
+}
+
+/// `significance: {method, alpha, ...}`.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct SignificanceSpec {
+    /// The error model.
+    pub method: MethodSpec,
+    /// Significance level (default 0.05).
+    #[serde(default)]
+    pub alpha: Option<f64>,
+    /// Standard deviation (method precision).
+    #[serde(default)]
+    pub s: Option<f64>,
+    /// Its degrees of freedom (method precision).
+    #[serde(default)]
+    pub df: Option<f64>,
+    /// Where s comes from (method precision).
+    #[serde(default)]
+    pub source: Option<String>,
+    /// Determinations averaged per run (method precision; default 1).
+    #[serde(default)]
+    pub determinations: Option<u32>,
+    /// Terms assumed negligible (method negligible), e.g. `temp×ph×flow`.
+    #[serde(default)]
+    pub terms: Option<Vec<String>>,
 }
 
 /// Identification of the study.
@@ -51,6 +150,12 @@ pub struct StudyInfo {
     /// What the study has to show.
     #[serde(default)]
     pub objective: Option<String>,
+    /// `validation` (default) or `development`.
+    #[serde(default)]
+    pub source: Option<SourceKind>,
+    /// The development study the data come from (with `source: development`).
+    #[serde(default)]
+    pub source_reference: Option<String>,
 }
 
 /// One factor: numeric (`nominal` with `delta` or `low`/`high`) or categorical (`levels`).
@@ -82,6 +187,12 @@ pub struct FactorSpec {
     /// Why this range was chosen.
     #[serde(default)]
     pub justification: Option<String>,
+    /// Expected variation in routine use, ± value in the factor's unit.
+    #[serde(default)]
+    pub routine: Option<f64>,
+    /// Distribution of the routine variation (default rectangular).
+    #[serde(default)]
+    pub distribution: Option<DistributionSpec>,
 }
 
 /// The kinds of design the study file can ask for.
@@ -199,6 +310,9 @@ pub struct DesignSpec {
     /// Run order: `false` (standard order) or `{seed: n}`.
     #[serde(default)]
     pub randomize: Option<RandomizeSpec>,
+    /// Correct the responses for drift seen in the nominal runs.
+    #[serde(default)]
+    pub drift_correction: Option<DriftCorrectionSpec>,
 }
 
 /// Which value percent effects are taken against.
@@ -228,6 +342,9 @@ pub struct ResponseSpec {
     /// Decimal places for the report; default from the data.
     #[serde(default)]
     pub decimals: Option<u32>,
+    /// `assay` (default) or `suitability`.
+    #[serde(default)]
+    pub role: Option<Role>,
 }
 
 /// Unit of an effect limit.
@@ -255,6 +372,15 @@ pub struct AcceptanceSpec {
     /// Where the limit comes from (e.g. a repeatability limit r = 2.8 s_r).
     #[serde(default)]
     pub basis: Option<String>,
+    /// A statistical criterion.
+    #[serde(default)]
+    pub significance: Option<SignificanceSpec>,
+    /// Lowest acceptable value of a system-suitability response.
+    #[serde(default)]
+    pub min: Option<f64>,
+    /// Highest acceptable value of a system-suitability response.
+    #[serde(default)]
+    pub max: Option<f64>,
 }
 
 /// The `results` section: a CSV file or inline runs.

@@ -85,8 +85,19 @@ pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics>
             slot.extend(new);
         }
     }
+    for (i, e) in study.excluded.iter().enumerate() {
+        if !planned.contains(&e.run) {
+            problems.push(study.diagnostic(
+                &FieldPath::of(&["excluded"]).index(i).key("run"),
+                format!("run `{}` is excluded but the design does not have it", e.run),
+                Some(format!("expected one of the planned runs {}", run_range(design))),
+            ));
+        }
+    }
     for run in &design.runs {
+        let excluded = study.excluded.iter().any(|e| e.run == run.id);
         match values.get(&run.id) {
+            None if excluded => {}
             None => problems.push(Locus::results(study).diagnostic(
                 format!("no results for run `{}`", run.id),
                 Some("expected a result for every planned run".into()),
