@@ -432,7 +432,11 @@ pub fn analyse_response(
     };
 
     // 11. Control ranges for factors with significant or relevant effects.
-    let control_ranges = control_ranges(study, &effects_out, &criteria, reference);
+    let control_ranges = if response.role == Role::Assay {
+        control_ranges(study, &effects_out, &criteria, reference)
+    } else {
+        Vec::new() // a suitability response is expected to move; its limit comes from the worst case
+    };
 
     // 12. Uncertainty contributions.
     let uncertainty = uncertainty(study, &effects_out);
@@ -702,13 +706,14 @@ fn control_ranges(
     for e in effects.iter().filter(|e| e.order == 1 && !e.dummy) {
         let Some(id) = e.factors.first() else { continue };
         let Some(f) = study.factors.iter().find(|f| &f.id == id) else { continue };
-        let (threshold, basis) = if e.significant == Some(true) {
-            (e_crit, "significance")
-        } else if e.relevant == Some(true) {
-            (limit_abs, "relevance")
-        } else {
-            continue;
-        };
+        let mut bases = Vec::new();
+        if e.relevant == Some(true) {
+            bases.push((limit_abs, "relevance"));
+        }
+        if e.significant == Some(true) {
+            bases.push((e_crit, "significance"));
+        }
+        for (threshold, basis) in bases {
         match &f.levels {
             Levels::Numeric { nominal, low, high } => {
                 let range = threshold.and_then(|t| decision::non_significance_interval(e.effect, t, *low, *high, *nominal));
@@ -735,6 +740,7 @@ fn control_ranges(
                     f.name.to_lowercase()
                 )),
             }),
+        }
         }
     }
     out

@@ -73,6 +73,45 @@ fn effect_words(response: &ResponseAnalysis, e: &Effect) -> String {
     )
 }
 
+/// A statistical criterion in words, e.g. `Lenth's method (α = 0.05, ME = 0.45, SME = 0.97)`.
+pub fn significance_text(response: &ResponseAnalysis, c: &crate::analysis::judge::CriterionSummary) -> String {
+    let d = response.decimals + 1;
+    let alpha = c.alpha.map(|a| format!("α = {}", setting(a))).unwrap_or_default();
+    let df = c.df.map(|v| format!(", df = {}", trim(v))).unwrap_or_default();
+    let numbers = match (c.me, c.sme, c.e_crit) {
+        (Some(me), Some(sme), _) => format!("{alpha}{df}, PSE = {}, ME = {}, SME = {}", fixed(c.pse.unwrap_or(f64::NAN), d), fixed(me, d), fixed(sme, d)),
+        (_, _, Some(e)) => format!("{alpha}{df}, SE(E) = {}, E_crit = {}", fixed(c.se.unwrap_or(f64::NAN), d), fixed(e, d)),
+        _ => format!("{alpha}{df}; {}", c.note.clone().unwrap_or_else(|| "the method could not judge".into())),
+    };
+    let name = match c.method.as_str() {
+        "precision" => format!("critical effect from the known precision{}", c.basis.as_ref().map(|b| format!(" ({b})")).unwrap_or_default()),
+        "dummies" => "critical effect from the dummy columns".to_string(),
+        "negligible" => format!("critical effect from the terms declared negligible ({})", c.error_terms.join(", ")),
+        "dong" => "Dong's algorithm".to_string(),
+        "lenth" => "Lenth's method".to_string(),
+        "anova" => "critical effect from the pure error (ANOVA)".to_string(),
+        other => other.to_string(),
+    };
+    format!("{name} ({numbers})")
+}
+
+/// A number with up to 4 significant decimals and no trailing zeros (degrees of freedom).
+fn trim(v: f64) -> String {
+    let t = format!("{v:.2}");
+    let t = t.trim_end_matches('0').trim_end_matches('.');
+    t.to_string()
+}
+
+fn factor_unit(study: &Study, id: &str) -> String {
+    study
+        .factors
+        .iter()
+        .find(|f| f.id == id)
+        .and_then(|f| f.unit.clone())
+        .map(|u| format!(" {u}"))
+        .unwrap_or_default()
+}
+
 /// The sentences of the conclusion, in reading order.
 pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
     let mut out = Vec::new();
@@ -82,6 +121,17 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
         .map(|f| format!("{} {}", f.name, range_text(study, &f.id)))
         .collect();
     let two_level = analysis.design.two_level_runs;
+    if study.source == crate::study::model::SourceKind::Development {
+        out.push(format!(
+            "The data come from method development{}, as ICH Q14 allows for showing robustness.",
+            study
+                .info
+                .source_reference
+                .as_ref()
+                .map(|r| format!(" ({r})"))
+                .unwrap_or_default()
+        ));
+    }
     out.push(format!(
         "{} factors were varied in {} two-level runs{}: {}.",
         study.factors.len(),
@@ -94,51 +144,75 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
         ranges.join("; ")
     ));
     for response in &analysis.responses {
-        let Some(criterion) = limit_text(response) else {
-            out.push(format!(
-                "{}: no acceptance rule was declared, so its effects are reported without a verdict.",
-                response.name
-            ));
-            continue;
-        };
         let mains: Vec<&Effect> = response
             .effects
             .iter()
             .filter(|e| e.order == 1 && !e.dummy)
             .collect();
-        let relevant: Vec<&Effect> = mains
-            .iter()
-            .copied()
-            .filter(|e| e.relevant == Some(true))
-            .collect();
-        if relevant.is_empty() {
-            let largest = mains
-                .iter()
-                .max_by(|a, b| a.percent.abs().total_cmp(&b.percent.abs()));
-            let mut s = format!(
-                "{}: no main effect exceeded the acceptance criterion {criterion}",
+        let criterion = limit_text(response);
+        let statistical: Vec<&crate::analysis::judge::CriterionSummary> =
+            response.criteria.iter().filter(|c| c.method != "effect-limit").collect();
+        if criterion.is_none() && statistical.is_empty() && response.worst_case.is_none() {
+            out.push(format!(
+                "{}: no acceptance rule was declared, so its effects are reported without a verdict.",
                 response.name
-            );
-            if let Some(e) = largest {
-                s.push_str(&format!(
-                    "; the largest was that of {} with {}",
-                    factor_name(study, e.factors.first().map_or("", String::as_str)),
-                    effect_words(response, e)
-                ));
+            ));
+            continue;
+        }
+        if let Some(criterion) = &criterion {
+            let relevant: Vec<&Effect> = mains
+                .iter()
+                .copied()
+                .filter(|e| e.relevant == Some(true))
+                .collect();
+            if relevant.is_empty() {
+                let largest = mains
+                    .iter()
+                    .max_by(|a, b| a.percent.abs().total_cmp(&b.percent.abs()));
+                let mut s = format!(
+                    "{}: no main effect exceeded the acceptance criterion {criterion}",
+                    response.name
+                );
+                if let Some(e) = largest {
+                    s.push_str(&format!(
+                        "; the largest was that of {} with {}",
+                        factor_name(study, e.factors.first().map_or("", String::as_str)),
+                        effect_words(response, e)
+                    ));
+                }
+                s.push('.');
+                out.push(s);
+            } else {
+                for e in &relevant {
+                    let id = e.factors.first().map_or("", String::as_str);
+                    out.push(format!(
+                        "{}: {} had a relevant effect of {} when changed from {}, beyond the acceptance criterion {criterion}.",
+                        response.name,
+                        factor_name(study, id),
+                        effect_words(response, e),
+                        range_text(study, id)
+                    ));
+                }
             }
-            s.push('.');
-            out.push(s);
-        } else {
-            for e in &relevant {
-                let id = e.factors.first().map_or("", String::as_str);
-                out.push(format!(
-                    "{}: {} had a relevant effect of {} when changed from {}, beyond the acceptance criterion {criterion}.",
-                    response.name,
-                    factor_name(study, id),
-                    effect_words(response, e),
-                    range_text(study, id)
-                ));
-            }
+        }
+        if let Some(first) = statistical.first() {
+            let significant: Vec<String> = mains
+                .iter()
+                .filter(|e| e.significant == Some(true))
+                .map(|e| factor_name(study, e.factors.first().map_or("", String::as_str)))
+                .collect();
+            let verdict = if first.e_crit.is_none() {
+                "could not be judged".to_string()
+            } else if significant.is_empty() {
+                "showed no significant main effect".to_string()
+            } else {
+                format!("showed significant main effects of {}", significant.join(", "))
+            };
+            out.push(format!(
+                "{}: judged by the {}, the study {verdict}.",
+                response.name,
+                significance_text(response, first)
+            ));
         }
         for e in response
             .effects
@@ -157,11 +231,113 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
                 }
             ));
         }
+        if let Some(w) = &response.worst_case {
+            let unit = response.unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default();
+            let settings: Vec<String> = w
+                .prediction
+                .factors
+                .iter()
+                .map(|f| {
+                    format!(
+                        "{} {}",
+                        f.label,
+                        match f.level {
+                            crate::analysis::decision::WorseLevel::High => "high",
+                            crate::analysis::decision::WorseLevel::Low => "low",
+                            crate::analysis::decision::WorseLevel::Either => "either level",
+                        }
+                    )
+                })
+                .collect();
+            let limit = match (w.min, w.max) {
+                (Some(m), _) => format!(" against the limit ≥ {}{unit}", setting(m)),
+                (None, Some(m)) => format!(" against the limit ≤ {}{unit}", setting(m)),
+                _ => String::new(),
+            };
+            let lower = w.prediction.direction == crate::analysis::decision::Direction::Lower;
+            out.push(format!(
+                "{}: the worst case within the studied domain, from the {}{}, is {}{unit}{limit}{}; proposed system-suitability limit: {} {}{unit}.",
+                response.name,
+                w.basis,
+                if settings.is_empty() { String::new() } else { format!(" ({})", settings.join(", ")) },
+                fixed(w.prediction.predicted, response.decimals),
+                match w.meets {
+                    Some(true) => ", which still meets it",
+                    Some(false) => ", which does not meet it: the factors above must be controlled more tightly",
+                    None => "",
+                },
+                if lower { "≥" } else { "≤" },
+                fixed(w.proposed_limit, response.decimals),
+            ));
+        }
+        let mut ranges = Vec::new();
+        for c in &response.control_ranges {
+            let name = factor_name(study, &c.factor);
+            let unit = factor_unit(study, &c.factor);
+            // Where both criteria give a range, the practical one decides the procedure.
+            let both = response.control_ranges.iter().any(|o| o.factor == c.factor && o.basis == "relevance");
+            if c.basis == "significance" && both {
+                continue;
+            }
+            match (&c.statement, c.low, c.high) {
+                (Some(text), _, _) => out.push(format!("{text}.")),
+                (None, Some(lo), Some(hi)) => ranges.push(format!(
+                    "{name} {} to {}{unit} ({} criterion; tested {} to {}{unit})",
+                    setting(round_sig(lo, 4)),
+                    setting(round_sig(hi, 4)),
+                    if c.basis == "relevance" { "acceptance" } else { "statistical" },
+                    c.tested_low.map(setting).unwrap_or_default(),
+                    c.tested_high.map(setting).unwrap_or_default(),
+                )),
+                _ => {}
+            }
+        }
+        if !ranges.is_empty() {
+            out.push(format!(
+                "{}: proposed operating ranges that keep each effect below its criterion, assuming linear effects: {}.",
+                response.name,
+                ranges.join("; ")
+            ));
+        }
+        if let Some(d) = response.drift.as_ref().and_then(|d| d.check.as_ref()) {
+            if d.p.is_some_and(|p| p < 0.05) {
+                out.push(format!(
+                    "{}: the nominal runs drifted by {} per run (p = {}){}.",
+                    response.name,
+                    crate::report::format::signed(d.slope, response.decimals + 2),
+                    fixed(d.p.unwrap_or(f64::NAN), 3),
+                    if response.drift.as_ref().is_some_and(|d| d.correction.is_some()) {
+                        "; the effects were computed on drift-corrected values"
+                    } else {
+                        "; the effects were not corrected for it"
+                    }
+                ));
+            }
+        }
+        if let Some(c) = &response.curvature {
+            if c.p.is_some_and(|p| p < 0.05) {
+                out.push(format!(
+                    "{}: the nominal runs differ significantly from the mean of the two-level runs (curvature {}, p = {}): the response is not linear between the levels.",
+                    response.name,
+                    crate::report::format::signed(c.difference, response.decimals + 1),
+                    fixed(c.p.unwrap_or(f64::NAN), 3)
+                ));
+            }
+        }
+        if let Some(u) = &response.uncertainty {
+            out.push(format!(
+                "{}: the routine variation of {} contributes a combined standard uncertainty of {}{}.",
+                response.name,
+                u.rows.iter().map(|r| factor_name(study, &r.factor)).collect::<Vec<_>>().join(", "),
+                fixed(u.combined, response.decimals + 1),
+                response.unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default()
+            ));
+        }
     }
     let judged: Vec<&ResponseAnalysis> = analysis
         .responses
         .iter()
-        .filter(|r| r.verdict.robust.is_some())
+        .filter(|r| r.verdict.robust.is_some() && r.role == "assay")
         .collect();
     if !judged.is_empty() {
         let robust_factors: Vec<String> = study
@@ -195,9 +371,56 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
                 ));
             }
         }
-        out.push(format!(
-            "An effect below the limit is not proof that no effect exists: these conclusions hold for the ranges tested, the {two_level} two-level runs performed and the criteria stated."
+    }
+    out.extend(limitations(study, analysis));
+    out
+}
+
+/// What the design could not see: aliasing, and the smallest effect it could detect.
+fn limitations(study: &Study, analysis: &Analysis) -> Vec<String> {
+    let _ = study;
+    let mut out = Vec::new();
+    let two_level = analysis.design.two_level_runs;
+    match (analysis.design.kind.as_str(), analysis.design.resolution) {
+        ("plackett-burman", _) => out.push(
+            "A Plackett–Burman design estimates main effects only: two-factor interactions are partially aliased with them and cannot be seen.".to_string(),
+        ),
+        (_, Some(3)) => out.push(
+            "The design is of resolution III: main effects are aliased with two-factor interactions, which it cannot see; the effects assume those interactions negligible.".to_string(),
+        ),
+        (_, Some(4)) => out.push(
+            "The design is of resolution IV: main effects are free of two-factor interactions, but two-factor interactions are aliased with each other.".to_string(),
+        ),
+        _ => {}
+    }
+    let detectable: Vec<String> = analysis
+        .responses
+        .iter()
+        .filter_map(|r| {
+            let c = r.criteria.iter().find(|c| c.method != "effect-limit")?;
+            let e = c.e_crit?;
+            Some(format!("{} {}", fixed(e, r.decimals + 1), r.unit.clone().unwrap_or_default()).trim().to_string() + &format!(" for {}", r.name))
+        })
+        .collect();
+    let mut s = format!(
+        "An effect below the limit is not proof that no effect exists: these conclusions hold for the ranges tested, the {two_level} two-level runs performed and the criteria stated"
+    );
+    if !detectable.is_empty() {
+        s.push_str(&format!(
+            "; smaller effects than the critical effects ({}) could not be told apart from the measurement scatter",
+            detectable.join("; ")
         ));
     }
+    s.push('.');
+    out.push(s);
     out
+}
+
+/// `x` rounded to `digits` significant digits.
+fn round_sig(x: f64, digits: i32) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        return x;
+    }
+    let scale = 10f64.powi(digits - 1 - x.abs().log10().floor() as i32);
+    (x * scale).round() / scale
 }

@@ -8,6 +8,7 @@
 pub mod conclusion;
 pub mod context;
 pub mod escape;
+pub mod figures;
 pub mod format;
 pub mod render;
 pub mod runsheet;
@@ -17,6 +18,8 @@ pub mod typst;
 use std::path::{Path, PathBuf};
 
 use crate::pipeline::Evaluated;
+
+pub use render::export_templates;
 
 /// What the report command needs besides the study.
 #[derive(Debug, Clone, Default)]
@@ -38,6 +41,15 @@ pub enum ReportError {
     /// The typesetter failed.
     #[error(transparent)]
     Typst(#[from] typst::TypstError),
+    /// A figure could not be drawn.
+    #[error(transparent)]
+    Figure(#[from] crate::plot::PlotError),
+    /// A file that would be written exists already.
+    #[error("{path} already exists; plateau never overwrites a template (remove it or choose an empty folder)")]
+    Exists {
+        /// The path.
+        path: String,
+    },
     /// A file could not be written.
     #[error("failed to write {path} ({cause})")]
     Write {
@@ -69,20 +81,27 @@ pub fn default_dir(study_path: &Path) -> PathBuf {
         .join(format!("{stem}-report"))
 }
 
-/// The files of a report except the PDF, as (name, bytes), in a fixed order.
+/// The files of a report except the PDF, as (name, bytes), in a fixed order: `report.typ`
+/// (the standalone document, which `#include`s the chapter), `section.typ` (the chapter, for
+/// a dossier to include), the figures, `analysis.json` and the CSV tables.
 pub fn render_files(
     evaluated: &Evaluated,
     options: &Options,
 ) -> Result<Vec<(String, Vec<u8>)>, ReportError> {
     let typst_version = options.typst.as_ref().map(|t| t.version.as_str());
-    let ctx = context::build(evaluated, typst_version);
-    let env = render::environment(options.templates.as_deref());
-    let source = render::render(
-        &env,
-        "report.typ.j2",
-        minijinja::Value::from(minijinja::value::Serde(&ctx)),
-    )?;
-    let mut files = vec![("report.typ".to_string(), source.into_bytes())];
+    let figures = figures::build(evaluated)?;
+    let ctx = context::build(evaluated, typst_version, &figures);
+    let user = options.templates.as_deref();
+    let env = render::environment(user);
+    let value = minijinja::Value::from(minijinja::value::Serde(&ctx));
+    let section = render::render(&env, "section.typ.j2", value.clone())
+        .map_err(|e| e.located(user))?;
+    let report = render::render(&env, "report.typ.j2", value).map_err(|e| e.located(user))?;
+    let mut files = vec![
+        ("report.typ".to_string(), report.into_bytes()),
+        ("section.typ".to_string(), section.into_bytes()),
+    ];
+    files.extend(figures.into_iter().map(|f| (f.file, f.svg.into_bytes())));
     let json = serde_json::to_string_pretty(&evaluated.analysis)
         .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
     files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));

@@ -5,11 +5,11 @@
 //! template author cannot forget to escape study text. Undefined variables are errors, so a typo
 //! in a template fails loudly instead of printing nothing.
 
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 use minijinja::{AutoEscape, Environment, UndefinedBehavior, Value};
 
-use super::escape;
+use super::{ReportError, escape};
 
 /// The built-in templates, by name.
 pub const BUILT_IN: &[(&str, &str)] = &[
@@ -18,12 +18,19 @@ pub const BUILT_IN: &[(&str, &str)] = &[
     ("runsheet.typ.j2", include_str!("../../templates/runsheet.typ.j2")),
 ];
 
+/// The variables the templates receive, for lab template authors (exported with them).
+pub const README: &str = include_str!("../../templates/README.md");
+
 /// A template problem, with the template's name and line.
 #[derive(Debug, thiserror::Error)]
 #[error("template error: {message}")]
 pub struct TemplateError {
     /// minijinja's description, which names the template file and line.
     pub message: String,
+    /// The template the error is in, as named to the loader (e.g. `section.typ.j2`).
+    pub template: Option<String>,
+    /// 1-based line in that template.
+    pub line: Option<usize>,
 }
 
 impl From<minijinja::Error> for TemplateError {
@@ -34,8 +41,72 @@ impl From<minijinja::Error> for TemplateError {
                 message = format!("{name}:{line}: {message}");
             }
         }
-        Self { message }
+        Self {
+            message,
+            template: e.name().map(str::to_string),
+            line: e.line(),
+        }
     }
+}
+
+impl TemplateError {
+    /// Adds where the failing template lives: the lab's file when `user_dir` holds one of that
+    /// name (so the author knows it is theirs), else a note that it is built in.
+    pub fn located(mut self, user_dir: Option<&Path>) -> Self {
+        let Some(name) = self.template.clone() else {
+            return self;
+        };
+        let line = self.line.map(|l| format!(":{l}")).unwrap_or_default();
+        match user_dir.map(|d| d.join(&name)).filter(|p| p.is_file()) {
+            Some(path) => {
+                self.message = format!("{}\n  --> {}{line}", self.message, path.display());
+            }
+            None => {
+                self.message = format!(
+                    "{}\n  --> built-in template {name}{line} (export the built-in templates with `plateau templates export DIR` to see it)",
+                    self.message
+                );
+            }
+        }
+        self
+    }
+}
+
+/// Writes the built-in templates and their README into `dir` (created if missing), for a lab to
+/// edit and pass back with `--templates DIR`. Refuses to overwrite: when any of the files
+/// exists already, nothing is written and the error names that file.
+pub fn export_templates(dir: &Path) -> Result<Vec<PathBuf>, ReportError> {
+    let files: Vec<(PathBuf, &str)> = BUILT_IN
+        .iter()
+        .map(|(name, text)| (dir.join(name), *text))
+        .chain(std::iter::once((dir.join("README.md"), README)))
+        .collect();
+    if let Some((path, _)) = files.iter().find(|(p, _)| p.exists()) {
+        return Err(ReportError::Exists {
+            path: path.display().to_string(),
+        });
+    }
+    std::fs::create_dir_all(dir).map_err(|e| ReportError::write(dir, e))?;
+    let mut written = Vec::with_capacity(files.len());
+    for (path, text) in files {
+        use std::io::Write;
+        let mut f = std::fs::OpenOptions::new()
+            .write(true)
+            .create_new(true)
+            .open(&path)
+            .map_err(|e| {
+                if e.kind() == std::io::ErrorKind::AlreadyExists {
+                    ReportError::Exists {
+                        path: path.display().to_string(),
+                    }
+                } else {
+                    ReportError::write(&path, e)
+                }
+            })?;
+        f.write_all(text.as_bytes()).map_err(|e| ReportError::write(&path, e))?;
+        written.push(path);
+    }
+    Ok(written)
 }
 
 /// The template environment: the user's folder first (if any), then the built-in templates.
