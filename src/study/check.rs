@@ -54,8 +54,10 @@ pub fn study(
     };
     check_date(&mut c, &file.study.date);
     let factors = factors(&mut c, &file.factors);
+    let before = c.problems.0.len();
     let design = design(&mut c, &file.design, &file.factors);
-    let responses = responses(&mut c, &file, &design);
+    let design_ok = c.problems.0.len() == before;
+    let responses = responses(&mut c, &file, &design, design_ok);
     let (limits, significance, suitability) = acceptance(&mut c, &file, &responses);
     let excluded = exclusions(&mut c, &file.excluded);
     if file.study.source_reference.is_some() && file.study.source != Some(model::SourceKind::Development) {
@@ -688,7 +690,12 @@ pub fn run_id(v: &Value) -> Option<RunId> {
     }
 }
 
-fn responses(c: &mut Checker<'_>, file: &StudyFile, design: &DesignRequest) -> Vec<Response> {
+fn responses(
+    c: &mut Checker<'_>,
+    file: &StudyFile,
+    design: &DesignRequest,
+    design_ok: bool,
+) -> Vec<Response> {
     let has_nominal = match design.kind {
         DesignKind::Explicit => design
             .explicit_runs
@@ -715,7 +722,7 @@ fn responses(c: &mut Checker<'_>, file: &StudyFile, design: &DesignRequest) -> V
             );
         }
         let percent_of = match r.percent_of {
-            Some(PercentOf::Nominal) if !has_nominal => {
+            Some(PercentOf::Nominal) if !has_nominal && design_ok => {
                 c.report(
                     &at.key("percent-of"),
                     "percent effects against the nominal runs need nominal runs, and the design has none",

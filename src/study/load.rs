@@ -98,28 +98,84 @@ pub fn decode(bytes: &[u8], file_name: &str) -> Result<String, Diagnostics> {
 }
 
 fn from_yaml<T: serde::de::DeserializeOwned>(text: &str, file_name: &str) -> Result<T, Diagnostics> {
-    if let Some((line, column)) = first_tab_indent(text) {
-        return Err(Diagnostics(vec![
-            Diagnostic::field(
-                file_name,
-                &FieldPath::root(),
-                "a tab is used for indentation",
-                Some("indent with spaces (YAML does not allow tabs for indentation)".to_string()),
-            )
-            .at(Some((line, column))),
-        ]));
+    let whole = |problem: String, expected: Option<String>, at: Option<(usize, usize)>| {
+        Diagnostics(vec![
+            Diagnostic::field(file_name, &FieldPath::root(), problem, expected).at(at),
+        ])
+    };
+    if text.lines().all(|l| l.trim().is_empty() || l.trim_start().starts_with('#')) {
+        return Err(whole(
+            "the study file is empty".into(),
+            Some("expected a study: `schema: 1`, `study:`, `factors:`, `design:`, `responses:` (`plateau new` writes a starter file)".into()),
+            Some((1, 1)),
+        ));
     }
-    serde_saphyr::from_str::<T>(text).map_err(|e| {
+    if let Some(at) = first_tab_indent(text) {
+        return Err(whole(
+            "a tab is used for indentation".into(),
+            Some("indent with spaces (YAML does not allow tabs for indentation)".into()),
+            Some(at),
+        ));
+    }
+    let mut options = serde_saphyr::Options::default();
+    if let Some(budget) = options.budget.as_mut() {
+        budget.max_nodes = MAX_YAML_NODES;
+        budget.max_aliases = 10_000;
+    }
+    serde_saphyr::from_str_with_options::<T>(text, options).map_err(|e| {
         let position = e
             .location()
             .map(|l| (l.line() as usize, l.column() as usize));
         let message = e.without_snippet().to_string();
         let message = strip_position_prefix(message.lines().next().unwrap_or_default());
-        Diagnostics(vec![
-            Diagnostic::field(file_name, &FieldPath::root(), yaml_problem(&message), None)
-                .at(position),
-        ])
+        let lower = message.to_lowercase();
+        if lower.contains("budget") {
+            return whole(
+                format!("the YAML expands to more than {MAX_YAML_NODES} nodes (anchors and aliases repeated without bound?)"),
+                Some("expected a study file without self-multiplying aliases".into()),
+                position,
+            );
+        }
+        // Name the field when the position is a value the typed model rejected.
+        let field = position
+            .and_then(|(l, c)| super::locate::Locator::new(text).path_at(l, c))
+            .unwrap_or_default();
+        let scalar = position.and_then(|(l, c)| scalar_at(text, l, c));
+        let (problem, expected) = yaml_problem(&message, scalar.as_deref());
+        let mut field = field;
+        if let (true, Some((l, c))) = (lower.contains("duplicate"), position) {
+            // The marked tree refuses the duplicate too: locate its mapping with that line
+            // blanked out, then name the key.
+            let blanked: String = text
+                .lines()
+                .enumerate()
+                .map(|(i, line)| if i + 1 == l { " ".repeat(line.len()) } else { line.to_string() })
+                .collect::<Vec<_>>()
+                .join("\n");
+            field = super::locate::Locator::new(&blanked)
+                .path_at(l, c)
+                .unwrap_or_default();
+            if let Some(key) = scalar.as_deref().and_then(|s| s.split(':').next()) {
+                field = field.key(key.trim());
+            }
+        }
+        Diagnostics(vec![Diagnostic::field(file_name, &field, problem, expected).at(position)])
     })
+}
+
+/// Most YAML nodes a study may expand to (large result sets belong in a CSV file).
+pub const MAX_YAML_NODES: usize = 250_000;
+
+/// The plain scalar starting at a 1-based position, for messages.
+fn scalar_at(text: &str, line: usize, column: usize) -> Option<String> {
+    let l = text.lines().nth(line.checked_sub(1)?)?;
+    let rest: String = l.chars().skip(column.checked_sub(1)?).collect();
+    let token: String = rest
+        .chars()
+        .take_while(|c| !matches!(c, ',' | '}' | ']' | '#') && *c != '\n')
+        .collect();
+    let token = token.trim().to_string();
+    (!token.is_empty()).then_some(token)
 }
 
 /// saphyr reports tabs in indentation with a generic message; this names the fault plainly.
@@ -151,13 +207,33 @@ fn strip_position_prefix(message: &str) -> String {
     m.to_string()
 }
 
-fn yaml_problem(message: &str) -> String {
+fn yaml_problem(message: &str, scalar: Option<&str>) -> (String, Option<String>) {
     let lower = message.to_lowercase();
+    let shown = scalar.map(|s| format!("`{s}`")).unwrap_or_else(|| "the value".into());
     if lower.contains("duplicate") {
-        format!("{message} (each key may appear once in a mapping)")
-    } else if lower.contains("budget") || lower.contains("alias") && lower.contains("limit") {
-        format!("the YAML expands beyond the size limit: {message}")
+        let key = message
+            .split("key:")
+            .nth(1)
+            .and_then(|r| r.split(',').next())
+            .map(str::trim)
+            .unwrap_or("");
+        (
+            format!("duplicate key `{key}`"),
+            Some("each key may appear once in a mapping".into()),
+        )
+    } else if lower.contains("non-finite") || scalar.is_some_and(|s| s.parse::<f64>().is_ok_and(|v| !v.is_finite())) {
+        (
+            format!("{shown} is not a finite number"),
+            Some("expected a finite decimal number such as 99.5".into()),
+        )
+    } else if lower.contains("invalid floating point") || lower.contains("invalid number") || lower.contains("invalid integer") {
+        (
+            format!("{shown} is not a decimal number"),
+            Some("expected a plain decimal number such as 16, 0.5 or 1000 (no hexadecimal, no `_` separators, no units)".into()),
+        )
+    } else if lower.contains("unknown field") {
+        (message.replace('`', "`"), None)
     } else {
-        format!("invalid YAML: {message}")
+        (format!("invalid YAML: {message}"), None)
     }
 }

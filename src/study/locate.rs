@@ -6,7 +6,7 @@
 
 use saphyr::{LoadableYamlNode, MarkedYaml, YamlData};
 
-use super::diagnostic::Segment;
+use super::diagnostic::{FieldPath, Segment};
 
 /// Positions of the nodes of one YAML document.
 pub struct Locator<'a> {
@@ -49,6 +49,58 @@ impl<'a> Locator<'a> {
             _ => Some(position(node)),
         }
     }
+}
+
+impl Locator<'_> {
+    /// The field path of the node that starts at 1-based (line, column), or of the innermost
+    /// collection containing it; for turning a parser position back into a field name.
+    pub fn path_at(&self, line: usize, column: usize) -> Option<FieldPath> {
+        let mut node = self.root.as_ref()?;
+        let mut path = Vec::new();
+        let target = (line, column);
+        'descend: loop {
+            match &node.data {
+                YamlData::Mapping(map) => {
+                    for (k, v) in map.iter() {
+                        let key = k.data.as_str().map(str::to_string);
+                        if position(k) == target || position(v) == target || contains(v, target) {
+                            let Some(key) = key else { break 'descend };
+                            path.push(Segment::Key(key));
+                            if position(k) == target || position(v) == target {
+                                break 'descend;
+                            }
+                            node = v;
+                            continue 'descend;
+                        }
+                    }
+                    break;
+                }
+                YamlData::Sequence(items) => {
+                    for (i, v) in items.iter().enumerate() {
+                        if position(v) == target || contains(v, target) {
+                            path.push(Segment::Index(i));
+                            if position(v) == target {
+                                break 'descend;
+                            }
+                            node = v;
+                            continue 'descend;
+                        }
+                    }
+                    break;
+                }
+                _ => break,
+            }
+        }
+        Some(FieldPath(path))
+    }
+}
+
+fn contains(node: &MarkedYaml<'_>, (line, column): (usize, usize)) -> bool {
+    let start = position(node);
+    let end = (node.span.end.line(), node.span.end.col() + 1);
+    matches!(node.data, YamlData::Mapping(_) | YamlData::Sequence(_))
+        && start <= (line, column)
+        && (line, column) < end
 }
 
 fn position(node: &MarkedYaml<'_>) -> (usize, usize) {
@@ -102,6 +154,13 @@ mod tests {
             Segment::Key("name".into()),
         ];
         assert_eq!(loc.value(&path), Some((5, 5)));
+    }
+
+    #[test]
+    fn a_position_maps_back_to_its_field_path() {
+        let loc = Locator::new(TEXT);
+        assert_eq!(loc.path_at(4, 12).unwrap().to_string(), "factors[0].delta");
+        assert_eq!(loc.path_at(5, 9).unwrap().to_string(), "factors[1].id");
     }
 
     #[test]

@@ -94,18 +94,30 @@ pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics>
             ));
         }
     }
+    let missing_at = || match &spec.file {
+        Some(file) => {
+            let field = FieldPath::of(&["results", "file"]);
+            let d = study.diagnostic(&field, "", None);
+            Locus {
+                file: study.file_name.clone(),
+                position: d.line.zip(d.column),
+                field: format!("{field} ({file})"),
+            }
+        }
+        None => Locus::results(study),
+    };
     for run in &design.runs {
         let excluded = study.excluded.iter().any(|e| e.run == run.id);
         match values.get(&run.id) {
             None if excluded => {}
-            None => problems.push(Locus::results(study).diagnostic(
+            None => problems.push(missing_at().diagnostic(
                 format!("no results for run `{}`", run.id),
                 Some("expected a result for every planned run".into()),
             )),
             Some(per_response) => {
                 for (r, vals) in study.responses.iter().zip(per_response) {
                     if vals.len() != determinations {
-                        problems.push(Locus::results(study).diagnostic(
+                        problems.push(missing_at().diagnostic(
                             format!(
                                 "run `{}` has {} determination(s) of `{}`",
                                 run.id,
@@ -201,9 +213,29 @@ fn inline_rows(
                 ));
             }
         }
+        let declared = study
+            .results
+            .as_ref()
+            .and_then(|r| r.determinations)
+            .unwrap_or(1) as usize;
         let mut values = Vec::new();
         for id in &ids {
             let field = here.key(id);
+            if let Some(Value::Array(items)) = entry.get(*id) {
+                if items.len() != declared {
+                    problems.push(study.diagnostic(
+                        &field,
+                        format!("run `{run}` lists {} determinations of `{id}`", items.len()),
+                        Some(if declared == 1 {
+                            format!("expected one number, or declare `determinations: {}` under `results`", items.len())
+                        } else {
+                            format!("expected {declared} determinations, as declared")
+                        }),
+                    ));
+                    values.push(Vec::new());
+                    continue;
+                }
+            }
             let vals: Option<Vec<f64>> = match entry.get(*id) {
                 Some(Value::Number(n)) => n.as_f64().map(|v| vec![v]),
                 Some(Value::Array(items)) => items.iter().map(Value::as_f64).collect(),
@@ -282,7 +314,7 @@ fn csv_rows(
     };
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(true)
-        .flexible(false)
+        .flexible(true)
         .trim(csv::Trim::All)
         .from_reader(text.as_bytes());
     let header: Vec<String> = match reader.headers() {
@@ -350,13 +382,31 @@ fn csv_rows(
             Ok(r) => r,
             Err(e) => {
                 let line = e.position().map(|p| p.line() as usize);
-                problems.push(one(line, "", format!("malformed CSV row ({e})"), Some("expected the same number of columns as the header".into())));
+                problems.push(one(line, "", "the row cannot be read as CSV (an unclosed quote?)".to_string(), Some(format!("expected comma-separated fields ({e})"))));
                 continue;
             }
         };
         let line = record.position().map(|p| p.line() as usize);
         if record.iter().all(str::is_empty) {
             continue; // a blank line, e.g. at the end of the file
+        }
+        if record.len() != header.len() {
+            let decimal_comma = record.len() > header.len()
+                && record.iter().zip(record.iter().skip(1)).any(|(a, b)| {
+                    !a.is_empty() && a.chars().all(|c| c.is_ascii_digit() || c == '-')
+                        && !b.is_empty() && b.chars().all(|c| c.is_ascii_digit())
+                });
+            problems.push(one(
+                line,
+                "",
+                format!("the row has {} fields but the header has {}", record.len(), header.len()),
+                Some(if decimal_comma {
+                    "a number seems to use a comma as decimal separator: write `98.9`, not `98,9` (commas separate the columns)".into()
+                } else {
+                    format!("expected {} comma-separated fields: {}", header.len(), header.join(","))
+                }),
+            ));
+            continue;
         }
         let run_text = record.get(run_col).unwrap_or_default();
         if run_text.is_empty() {
@@ -457,7 +507,9 @@ fn parse_number(cell: &str) -> Result<f64, String> {
 }
 
 fn number_hint(cell: &str) -> String {
-    if cell.contains(',') {
+    if cell.parse::<f64>().is_ok() {
+        "expected a finite decimal number such as 99.5".into()
+    } else if cell.contains(',') {
         "expected `.` as the decimal separator (e.g. 99.5), with columns separated by commas".into()
     } else if cell.chars().any(|c| c.is_alphabetic() || c == '%') && cell.chars().any(|c| c.is_ascii_digit()) {
         "expected the number alone, without a unit (units belong in the response definition)".into()

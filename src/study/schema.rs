@@ -220,10 +220,18 @@ fn describe(
                         .join(" or ")
                 ),
             };
-            plain(
-                format!("wrong type: found {} {}", type_name(instance), shown(instance)),
-                Some(expected),
-            )
+            let found = match instance {
+                Value::Array(_) | Value::Object(_) | Value::Null => type_name(instance).to_string(),
+                other => format!("{} {}", type_name(other), shown(other)),
+            };
+            let expected = if path.to_string() == "design.runs" {
+                "expected a number of runs (fractional-factorial, plackett-burman); only `kind: explicit` takes a list of runs, and a full factorial takes no `runs`".to_string()
+            } else if path.0.is_empty() {
+                "expected a mapping of the study sections (schema, study, factors, design, responses, ...)".to_string()
+            } else {
+                expected
+            };
+            plain(format!("wrong type: found {found}"), Some(expected))
         }
         ValidationErrorKind::Enum { options } => plain(
             format!("{} is not a valid value", shown(instance)),

@@ -1,0 +1,383 @@
+//! The bad-input suite: every folder under `tests/bad_inputs/` is one faulty (or tricky but
+//! valid) study, run through the real `plateau check` binary.
+//!
+//! A user who feeds plateau a broken file must get a message naming the file, the line and the
+//! field, and what would be valid — never a panic, a hang or a silent acceptance. Keeping one
+//! small folder per fault makes each case readable on its own and lets a new fault be added
+//! without touching this file.
+//!
+//! Each case folder holds `study.yaml` (its first line a `# fault: ...` comment), any data file
+//! it needs, and `expect.txt`:
+//! - line 1: the expected exit code;
+//! - each further non-empty line: a fragment that must appear in stderr (in stdout when the
+//!   expected exit code is 0, where the `ok` lines are printed);
+//! - a line starting with `!`: a fragment that must NOT appear (library jargon, knock-on
+//!   errors).
+//!
+//! The binary runs with the case folder as its current directory (`plateau check study.yaml`),
+//! so messages name `study.yaml` and `results.csv` relatively.
+
+use std::collections::BTreeSet;
+use std::io::Read;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Stdio};
+use std::sync::OnceLock;
+use std::time::{Duration, Instant};
+
+/// Longest a case may run; the billion-laughs case must fail on its budget well before this.
+const TIMEOUT: Duration = Duration::from_secs(20);
+/// Fewest cases the suite must hold (one per fault listed in the suite's brief).
+const MIN_CASES: usize = 40;
+
+/// What `expect.txt` asks for.
+#[derive(Debug)]
+struct Expectation {
+    exit_code: i32,
+    present: Vec<String>,
+    absent: Vec<String>,
+}
+
+/// What the binary did on one case.
+#[derive(Debug)]
+struct Outcome {
+    /// `None` when the process was killed by the timeout or by a signal.
+    exit_code: Option<i32>,
+    stdout: String,
+    stderr: String,
+    timed_out: bool,
+    elapsed: Duration,
+    /// Files that appeared in the case folder during the run.
+    new_files: Vec<String>,
+}
+
+/// One case folder with its expectation and outcome.
+#[derive(Debug)]
+struct Case {
+    name: String,
+    expectation: Result<Expectation, String>,
+    outcome: Result<Outcome, String>,
+}
+
+fn cases_root() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests")
+        .join("bad_inputs")
+}
+
+/// Case folders in name order, so failures are listed the same way on every run.
+fn case_dirs() -> Vec<PathBuf> {
+    let root = cases_root();
+    let mut dirs: Vec<PathBuf> = std::fs::read_dir(&root)
+        .unwrap_or_else(|e| panic!("cannot list {}: {e}", root.display()))
+        .filter_map(Result::ok)
+        .map(|entry| entry.path())
+        .filter(|p| p.is_dir())
+        .collect();
+    dirs.sort();
+    dirs
+}
+
+fn parse_expectation(text: &str) -> Result<Expectation, String> {
+    let mut lines = text.lines().map(|l| l.trim_end_matches('\r'));
+    let first = lines.next().ok_or("expect.txt is empty")?;
+    let exit_code = first
+        .trim()
+        .parse()
+        .map_err(|_| format!("expect.txt line 1 `{first}` is not an exit code"))?;
+    let mut present = Vec::new();
+    let mut absent = Vec::new();
+    for line in lines.filter(|l| !l.trim().is_empty()) {
+        match line.strip_prefix('!') {
+            Some(forbidden) => absent.push(forbidden.to_string()),
+            None => present.push(line.to_string()),
+        }
+    }
+    Ok(Expectation {
+        exit_code,
+        present,
+        absent,
+    })
+}
+
+/// Relative paths of every file under `dir`, to notice output written into a case folder.
+fn files_under(dir: &Path) -> BTreeSet<String> {
+    let mut out = BTreeSet::new();
+    let mut stack = vec![dir.to_path_buf()];
+    while let Some(d) = stack.pop() {
+        let Ok(entries) = std::fs::read_dir(&d) else {
+            continue;
+        };
+        for entry in entries.filter_map(Result::ok) {
+            let path = entry.path();
+            if path.is_dir() {
+                stack.push(path);
+            } else if let Ok(rel) = path.strip_prefix(dir) {
+                out.insert(rel.display().to_string());
+            }
+        }
+    }
+    out
+}
+
+/// Reads a child's pipe on its own thread so a chatty child cannot block on a full pipe.
+fn drain(pipe: Option<impl Read + Send + 'static>) -> std::thread::JoinHandle<String> {
+    std::thread::spawn(move || {
+        let mut bytes = Vec::new();
+        if let Some(mut p) = pipe {
+            let _ = p.read_to_end(&mut bytes);
+        }
+        String::from_utf8_lossy(&bytes).into_owned()
+    })
+}
+
+/// Messages name files as the binary was given them; drop any absolute case path or `./`
+/// prefix so the fragments can be written relative (`study.yaml:14:12:`).
+fn normalise(text: &str, dir: &Path) -> String {
+    let mut t = text.replace("\r\n", "\n");
+    for prefix in [
+        format!("{}{}", dir.display(), std::path::MAIN_SEPARATOR),
+        format!(".{}", std::path::MAIN_SEPARATOR),
+    ] {
+        t = t.replace(&prefix, "");
+    }
+    t
+}
+
+fn run_case(dir: &Path) -> Result<Outcome, String> {
+    let before = files_under(dir);
+    let start = Instant::now();
+    let mut child = Command::new(env!("CARGO_BIN_EXE_plateau"))
+        .args(["check", "study.yaml"])
+        .current_dir(dir)
+        .env("NO_COLOR", "1")
+        .stdin(Stdio::null())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .map_err(|e| format!("cannot start plateau: {e}"))?;
+    let stdout = drain(child.stdout.take());
+    let stderr = drain(child.stderr.take());
+    let mut timed_out = false;
+    let status = loop {
+        match child.try_wait() {
+            Ok(Some(status)) => break Some(status),
+            Ok(None) if start.elapsed() > TIMEOUT => {
+                timed_out = true;
+                let _ = child.kill();
+                let _ = child.wait();
+                break None;
+            }
+            Ok(None) => std::thread::sleep(Duration::from_millis(10)),
+            Err(e) => return Err(format!("cannot wait for plateau: {e}")),
+        }
+    };
+    let elapsed = start.elapsed();
+    let stdout = stdout.join().unwrap_or_default();
+    let stderr = stderr.join().unwrap_or_default();
+    let after = files_under(dir);
+    Ok(Outcome {
+        exit_code: status.and_then(|s| s.code()),
+        stdout: normalise(&stdout, dir),
+        stderr: normalise(&stderr, dir),
+        timed_out,
+        elapsed,
+        new_files: after.difference(&before).cloned().collect(),
+    })
+}
+
+/// Every case, run once and shared by the tests below (they run on parallel threads).
+fn cases() -> &'static [Case] {
+    static CASES: OnceLock<Vec<Case>> = OnceLock::new();
+    CASES.get_or_init(|| {
+        case_dirs()
+            .iter()
+            .map(|dir| {
+                let name = dir
+                    .file_name()
+                    .map(|n| n.to_string_lossy().into_owned())
+                    .unwrap_or_default();
+                let expectation = std::fs::read_to_string(dir.join("expect.txt"))
+                    .map_err(|e| format!("cannot read expect.txt: {e}"))
+                    .and_then(|t| parse_expectation(&t));
+                let outcome = if dir.join("study.yaml").is_file() {
+                    run_case(dir)
+                } else {
+                    Err("the case folder has no study.yaml".to_string())
+                };
+                Case {
+                    name,
+                    expectation,
+                    outcome,
+                }
+            })
+            .collect()
+    })
+}
+
+/// Everything wrong with one case, empty when it behaves as expected.
+fn mismatches(expectation: &Expectation, outcome: &Outcome) -> Vec<String> {
+    let mut out = Vec::new();
+    if outcome.timed_out {
+        out.push(format!("killed after {} s (timeout)", TIMEOUT.as_secs()));
+    }
+    if outcome.exit_code != Some(expectation.exit_code) {
+        out.push(format!(
+            "exit code {} instead of {}",
+            outcome
+                .exit_code
+                .map_or_else(|| "none (killed)".to_string(), |c| c.to_string()),
+            expectation.exit_code
+        ));
+    }
+    if outcome.stderr.contains("panicked") || outcome.stdout.contains("panicked") {
+        out.push("the binary panicked".to_string());
+    }
+    let (stream_name, stream) = if expectation.exit_code == 0 {
+        ("stdout", &outcome.stdout)
+    } else {
+        ("stderr", &outcome.stderr)
+    };
+    for fragment in &expectation.present {
+        if !stream.contains(fragment.as_str()) {
+            out.push(format!("{stream_name} lacks `{fragment}`"));
+        }
+    }
+    for fragment in &expectation.absent {
+        if stream.contains(fragment.as_str()) {
+            out.push(format!("{stream_name} contains the unwanted `{fragment}`"));
+        }
+    }
+    if !outcome.new_files.is_empty() {
+        out.push(format!(
+            "files written into the case folder: {}",
+            outcome.new_files.join(", ")
+        ));
+    }
+    out
+}
+
+/// True when `text` holds `study.yaml:<digit>` or `results.csv:<digit>`.
+fn has_location(text: &str) -> bool {
+    ["study.yaml:", "results.csv:"].iter().any(|file| {
+        text.match_indices(file).any(|(at, _)| {
+            text.get(at + file.len()..)
+                .and_then(|rest| rest.chars().next())
+                .is_some_and(|c| c.is_ascii_digit())
+        })
+    })
+}
+
+fn indent(text: &str) -> String {
+    if text.trim().is_empty() {
+        return "      (empty)\n".to_string();
+    }
+    text.lines().map(|l| format!("      {l}\n")).collect()
+}
+
+#[test]
+fn every_case_gives_its_expected_exit_code_and_message() {
+    let mut report = String::new();
+    let mut failing = 0;
+    for case in cases() {
+        let problems = match (&case.expectation, &case.outcome) {
+            (Err(e), _) | (_, Err(e)) => vec![e.clone()],
+            (Ok(expectation), Ok(outcome)) => mismatches(expectation, outcome),
+        };
+        if problems.is_empty() {
+            continue;
+        }
+        failing += 1;
+        report.push_str(&format!("\n■ {}\n", case.name));
+        for p in &problems {
+            report.push_str(&format!("    - {p}\n"));
+        }
+        if let Ok(outcome) = &case.outcome {
+            report.push_str(&format!(
+                "    exit code {:?} after {:.1} s; stderr:\n{}",
+                outcome.exit_code,
+                outcome.elapsed.as_secs_f64(),
+                indent(&outcome.stderr)
+            ));
+        }
+    }
+    assert!(
+        failing == 0,
+        "{failing} of {} bad-input cases do not behave as expected:\n{report}",
+        cases().len()
+    );
+}
+
+#[test]
+fn the_suite_has_enough_cases_and_each_is_complete() {
+    let cases = cases();
+    assert!(
+        cases.len() >= MIN_CASES,
+        "only {} cases under {}, expected at least {MIN_CASES}",
+        cases.len(),
+        cases_root().display()
+    );
+    let incomplete: Vec<String> = case_dirs()
+        .iter()
+        .filter(|d| !d.join("study.yaml").is_file() || !d.join("expect.txt").is_file())
+        .map(|d| d.display().to_string())
+        .collect();
+    assert!(
+        incomplete.is_empty(),
+        "case folders without study.yaml or expect.txt: {incomplete:?}"
+    );
+}
+
+#[test]
+fn every_rejected_case_names_a_file_and_line() {
+    let unlocated: Vec<String> = cases()
+        .iter()
+        .filter(|c| c.expectation.as_ref().is_ok_and(|e| e.exit_code == 1))
+        .filter_map(|c| {
+            let outcome = c.outcome.as_ref().ok()?;
+            (!has_location(&outcome.stderr))
+                .then(|| format!("■ {}\n{}", c.name, indent(&outcome.stderr)))
+        })
+        .collect();
+    assert!(
+        unlocated.is_empty(),
+        "{} rejected case(s) print no `study.yaml:<line>` or `results.csv:<line>`:\n{}",
+        unlocated.len(),
+        unlocated.join("")
+    );
+}
+
+#[test]
+fn every_case_says_which_fault_it_is() {
+    let unlabelled: Vec<String> = case_dirs()
+        .iter()
+        .filter(|d| {
+            let bytes = std::fs::read(d.join("study.yaml")).unwrap_or_default();
+            let text = String::from_utf8_lossy(&bytes);
+            // An empty study file is itself the fault; its folder name says so.
+            !text.is_empty() && !text.contains("# fault: ")
+        })
+        .map(|d| d.display().to_string())
+        .collect();
+    assert!(
+        unlabelled.is_empty(),
+        "studies without a `# fault: ...` line: {unlabelled:?}"
+    );
+}
+
+#[test]
+fn location_finder_needs_a_digit_after_the_file_name() {
+    assert!(has_location(
+        "error: study.yaml:14:12: factors[1].delta: ..."
+    ));
+    assert!(has_location("error: results.csv:4: assay: ..."));
+    assert!(!has_location("error: study.yaml: wrong type"));
+    assert!(!has_location("error: results.csv: file not found"));
+}
+
+#[test]
+fn expectation_lines_split_into_wanted_and_unwanted_fragments() {
+    let e = parse_expectation("1\r\nstudy.yaml:3:1:\n\n!panicked\n").unwrap();
+    assert_eq!(e.exit_code, 1);
+    assert_eq!(e.present, vec!["study.yaml:3:1:".to_string()]);
+    assert_eq!(e.absent, vec!["panicked".to_string()]);
+}
