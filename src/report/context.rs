@@ -56,6 +56,8 @@ pub struct Context {
     pub provenance: ProvenanceText,
     /// Published methods the chapter relies on, in citation order.
     pub references: Vec<Reference>,
+    /// Runs left out of the evaluation: run id and reason.
+    pub excluded: Vec<ExcludedText>,
     /// The review and approval block: prepared by, reviewed by, approved by.
     pub approval: Vec<Signatory>,
     /// True when any response has a figure.
@@ -98,6 +100,9 @@ pub struct Signatory {
 /// One figure as the template places it.
 #[derive(Debug, Serialize)]
 pub struct FigureText {
+    /// What the figure is: `halfnormal`, `effects`, `main-effects`, `interaction` or
+    /// `run-order` (templates may size them differently).
+    pub kind: String,
     /// File name beside the Typst source (relative, forward slashes).
     pub file: String,
     /// Caption.
@@ -126,7 +131,7 @@ pub struct StudyText {
 /// The design in words.
 #[derive(Debug, Serialize)]
 pub struct DesignText {
-    /// e.g. "full factorial 2^3".
+    /// e.g. "full factorial 2³", "fractional factorial 2⁵⁻¹, resolution V".
     pub kind: String,
     /// All runs.
     pub runs: usize,
@@ -142,6 +147,9 @@ pub struct DesignText {
     pub generators: Vec<String>,
     /// Where the generators came from, when chosen from the catalogue.
     pub catalogue: Option<String>,
+    /// The letters generators may be written in, with their columns, e.g. `A = temp, B = ph`
+    /// (only when there are generators).
+    pub letters: Option<String>,
     /// The defining relation, `I = w1 = w2 = ...`, when the design is a regular fraction.
     pub defining_relation: Option<String>,
     /// Resolution in Roman numerals (`IV`), when defined.
@@ -191,6 +199,15 @@ pub struct PartialAliasRow {
     pub count: usize,
     /// The distinct |r| values, largest first, e.g. `0.33`.
     pub correlations: String,
+}
+
+/// A run left out of the evaluation.
+#[derive(Debug, Serialize)]
+pub struct ExcludedText {
+    /// Run id.
+    pub run: String,
+    /// Why.
+    pub reason: String,
 }
 
 /// One row of the factors table.
@@ -248,6 +265,10 @@ pub struct ResponseText {
     pub has_dummies: bool,
     /// The figures of this response, in the order they are placed.
     pub figures: Vec<FigureText>,
+    /// Role: `assay` or `suitability`.
+    pub role: String,
+    /// Statistical criteria, ANOVA, curvature, drift, worst case, ranges, uncertainty.
+    pub judging: super::judging::JudgingText,
 }
 
 /// One effects-table row.
@@ -316,7 +337,11 @@ pub fn section_of(evaluated: &Evaluated) -> String {
 
 /// Number of dot-separated components of a section number (`7.4` → 2), at least 1.
 pub fn section_depth(section: &str) -> usize {
-    section.split('.').filter(|p| !p.trim().is_empty()).count().max(1)
+    section
+        .split('.')
+        .filter(|p| !p.trim().is_empty())
+        .count()
+        .max(1)
 }
 
 /// Builds the context of one study; `figures` are the chapter's figures (from
@@ -336,7 +361,7 @@ pub fn build(evaluated: &Evaluated, typst_version: Option<&str>, figures: &[Figu
             FactorRow {
                 id: f.id.clone(),
                 name: f.name.clone(),
-                unit: f.unit.clone().unwrap_or_else(|| "–".to_string()),
+                unit: f.unit.clone().unwrap_or_default(),
                 nominal,
                 low,
                 high,
@@ -406,6 +431,14 @@ pub fn build(evaluated: &Evaluated, typst_version: Option<&str>, figures: &[Figu
             .collect(),
         has_justification: study.factors.iter().any(|f| f.justification.is_some()),
         references: references(evaluated, has_figures),
+        excluded: study
+            .excluded
+            .iter()
+            .map(|e| ExcludedText {
+                run: e.run.0.clone(),
+                reason: e.reason.clone(),
+            })
+            .collect(),
         approval: vec![
             Signatory {
                 role: "Prepared by".into(),
@@ -436,11 +469,7 @@ pub fn build(evaluated: &Evaluated, typst_version: Option<&str>, figures: &[Figu
         runs,
         responses,
         conclusion: conclusion::sentences(study, analysis),
-        notes: study
-            .notes
-            .as_deref()
-            .map(paragraphs)
-            .unwrap_or_default(),
+        notes: study.notes.as_deref().map(paragraphs).unwrap_or_default(),
         provenance: provenance_text(analysis, typst_version),
     }
 }
@@ -452,37 +481,76 @@ fn paragraphs(text: &str) -> Vec<String> {
         .collect()
 }
 
+/// Digits and minus signs as Unicode superscripts (`5−1` → `⁵⁻¹`), so that `2⁵⁻¹` reads as a
+/// power in running text without Typst markup; other characters are kept.
+pub fn superscript(text: &str) -> String {
+    text.chars()
+        .map(|c| match c {
+            '0' => '⁰',
+            '1' => '¹',
+            '2' => '²',
+            '3' => '³',
+            '4' => '⁴',
+            '5' => '⁵',
+            '6' => '⁶',
+            '7' => '⁷',
+            '8' => '⁸',
+            '9' => '⁹',
+            '-' | '\u{2212}' => '⁻',
+            c => c,
+        })
+        .collect()
+}
+
 fn design_text(evaluated: &Evaluated) -> DesignText {
     let design = &evaluated.design;
     let st = &design.structure;
     let k = evaluated.study.factors.len();
     let kind = match design.kind {
-        crate::study::DesignKind::FullFactorial => format!("full factorial 2^{k}"),
+        crate::study::DesignKind::FullFactorial => {
+            format!("full factorial 2{}", superscript(&k.to_string()))
+        }
         crate::study::DesignKind::FractionalFactorial => {
             let p = st.generators.len();
             format!(
-                "fractional factorial 2^({}−{p}){}{}",
-                design.k(),
+                "fractional factorial 2{}{}{}",
+                superscript(&format!("{}\u{2212}{p}", design.k())),
                 st.resolution
                     .map(|r| format!(", resolution {}", crate::design::catalogue::roman(r)))
                     .unwrap_or_default(),
-                if st.youden { " (the Youden–Steiner ruggedness design)" } else { "" }
+                if st.youden {
+                    " (the Youden–Steiner ruggedness design)"
+                } else {
+                    ""
+                }
             )
         }
         crate::study::DesignKind::Youden => format!(
             "Youden–Steiner ruggedness design, 7 columns in 8 runs{}",
-            if design.dummies > 0 { format!(" ({} dummy columns)", design.dummies) } else { String::new() }
+            if design.dummies > 0 {
+                format!(" ({} dummy columns)", design.dummies)
+            } else {
+                String::new()
+            }
         ),
         crate::study::DesignKind::PlackettBurman => format!(
             "Plackett–Burman design of {} runs{}",
             design.base_runs / if st.folded { 2 } else { 1 },
-            if design.dummies > 0 { format!(" with {} dummy columns", design.dummies) } else { String::new() }
+            if design.dummies > 0 {
+                format!(" with {} dummy columns", design.dummies)
+            } else {
+                String::new()
+            }
         ),
         crate::study::DesignKind::Explicit => {
             format!("explicit two-level design of {} runs", design.base_runs)
         }
     };
-    let kind = if st.folded { format!("{kind}, folded over (mirror-image runs added)") } else { kind };
+    let kind = if st.folded {
+        format!("{kind}, folded over (mirror-image runs added)")
+    } else {
+        kind
+    };
     let order = match design.seed {
         Some(seed) => format!("randomised (ChaCha20, seed {seed})"),
         None => "standard order (not randomised)".to_string(),
@@ -504,7 +572,13 @@ fn design_text(evaluated: &Evaluated) -> DesignText {
             chain: c
                 .chain
                 .iter()
-                .map(|(t, s)| format!("{}{}", if *s < 0 { "\u{2212}" } else { "" }, design.label(*t)))
+                .map(|(t, s)| {
+                    format!(
+                        "{}{}",
+                        if *s < 0 { "\u{2212}" } else { "" },
+                        design.label(*t)
+                    )
+                })
                 .collect::<Vec<_>>()
                 .join(" = "),
         })
@@ -518,6 +592,15 @@ fn design_text(evaluated: &Evaluated) -> DesignText {
         order,
         generators: st.generators.clone(),
         catalogue: st.catalogue.clone(),
+        letters: (!st.generators.is_empty()).then(|| {
+            design
+                .column_ids
+                .iter()
+                .enumerate()
+                .map(|(i, id)| format!("{} = {id}", crate::design::word::factor_label(i)))
+                .collect::<Vec<_>>()
+                .join(", ")
+        }),
         defining_relation,
         resolution: st.resolution.map(crate::design::catalogue::roman),
         word_length_pattern: st
@@ -576,8 +659,11 @@ fn partial_alias_rows(evaluated: &Evaluated) -> Vec<PartialAliasRow> {
 
 /// `runs 9, 10 and 11, performed at positions 1, 6 and 11 of the run order`.
 fn nominal_runs_text(design: &crate::design::Design) -> Option<String> {
-    let nominal: Vec<&crate::design::PlannedRun> =
-        design.runs_in_order().into_iter().filter(|r| r.nominal).collect();
+    let nominal: Vec<&crate::design::PlannedRun> = design
+        .runs_in_order()
+        .into_iter()
+        .filter(|r| r.nominal)
+        .collect();
     if nominal.is_empty() {
         return None;
     }
@@ -587,7 +673,11 @@ fn nominal_runs_text(design: &crate::design::Design) -> Option<String> {
         "{} {}, performed at {} {} of the run order",
         if ids.len() == 1 { "run" } else { "runs" },
         and_list(&ids),
-        if positions.len() == 1 { "position" } else { "positions" },
+        if positions.len() == 1 {
+            "position"
+        } else {
+            "positions"
+        },
         and_list(&positions)
     ))
 }
@@ -617,11 +707,19 @@ fn scope_text(evaluated: &Evaluated) -> String {
     format!(
         "The study varied {} {} of method {} ({}) around their nominal settings and recorded {} {} ({}) in {} runs.",
         study.factors.len(),
-        if study.factors.len() == 1 { "operating parameter" } else { "operating parameters" },
+        if study.factors.len() == 1 {
+            "operating parameter"
+        } else {
+            "operating parameters"
+        },
         study.info.method,
         and_list(&factors),
         study.responses.len(),
-        if study.responses.len() == 1 { "response" } else { "responses" },
+        if study.responses.len() == 1 {
+            "response"
+        } else {
+            "responses"
+        },
         and_list(&responses),
         evaluated.design.runs.len()
     )
@@ -634,7 +732,9 @@ pub fn references(evaluated: &Evaluated, has_figures: bool) -> Vec<Reference> {
     let design = &evaluated.design;
     let kind = design.kind;
     let mut out = vec![Reference {
-        authors: "Y. Vander Heyden, A. Nijhuis, J. Smeyers-Verbeke, B. G. M. Vandeginste, D. L. Massart".into(),
+        authors:
+            "Y. Vander Heyden, A. Nijhuis, J. Smeyers-Verbeke, B. G. M. Vandeginste, D. L. Massart"
+                .into(),
         year: "2001".into(),
         title: "Guidance for robustness/ruggedness tests in method validation".into(),
         source: "Journal of Pharmaceutical and Biomedical Analysis 24, 723–753".into(),
@@ -643,12 +743,15 @@ pub fn references(evaluated: &Evaluated, has_figures: bool) -> Vec<Reference> {
     out.push(Reference {
         authors: "G. E. P. Box, J. S. Hunter, W. G. Hunter".into(),
         year: "2005".into(),
-        title: "Statistics for Experimenters: Design, Innovation, and Discovery, 2nd edition".into(),
+        title: "Statistics for Experimenters: Design, Innovation, and Discovery, 2nd edition"
+            .into(),
         source: "Wiley, Hoboken NJ".into(),
         used_for: "two-level designs; effects as differences of means".into(),
     });
-    if matches!(kind, crate::study::DesignKind::FractionalFactorial | crate::study::DesignKind::Youden)
-        && !design.structure.youden
+    if matches!(
+        kind,
+        crate::study::DesignKind::FractionalFactorial | crate::study::DesignKind::Youden
+    ) && !design.structure.youden
     {
         out.push(Reference {
             authors: "D. C. Montgomery".into(),
@@ -684,11 +787,44 @@ pub fn references(evaluated: &Evaluated, has_figures: bool) -> Vec<Reference> {
         out.push(Reference {
             authors: "C. Daniel".into(),
             year: "1959".into(),
-            title: "Use of half-normal plots in interpreting factorial two-level experiments".into(),
+            title: "Use of half-normal plots in interpreting factorial two-level experiments"
+                .into(),
             source: "Technometrics 1, 311–341".into(),
             used_for: "half-normal plot of the effects".into(),
         });
     }
+    let study = &evaluated.study;
+    let analysis = &evaluated.analysis;
+    let uses = |m: &str| analysis.responses.iter().any(|r| r.criteria.iter().any(|c| c.method == m));
+    let reference = |authors: &str, year: &str, title: &str, source: &str, used_for: &str| Reference {
+        authors: authors.into(),
+        year: year.into(),
+        title: title.into(),
+        source: source.into(),
+        used_for: used_for.into(),
+    };
+    if uses("lenth") {
+        out.push(reference("R. V. Lenth", "1989", "Quick and easy analysis of unreplicated factorials", "Technometrics 31, 469–473", "pseudo standard error, margin of error ME and simultaneous margin of error SME"));
+    }
+    if uses("dong") {
+        out.push(reference("F. Dong", "1993", "On the identification of active contrasts in unreplicated fractional factorials", "Statistica Sinica 3, 209–217", "critical effect by Dong's algorithm"));
+    }
+    if uses("anova") || analysis.responses.iter().any(|r| r.anova.is_some() || r.curvature.is_some()) {
+        out.push(reference("D. C. Montgomery", "2001", "Design and Analysis of Experiments, 5th edition", "Wiley, New York", "analysis of variance with pure error; curvature from centre points"));
+    }
+    if analysis.responses.iter().any(|r| r.worst_case.is_some()) {
+        out.push(reference("Y. Vander Heyden, F. Questier, D. L. Massart", "1999", "Ruggedness testing of chromatographic methods: selection of factors and levels", "Journal of Pharmaceutical and Biomedical Analysis 18, 43–56; with the worst-case prediction of system-suitability limits in J. Chromatogr. A 845 (1999) 145–154", "worst-case prediction and system-suitability limits"));
+    }
+    if analysis.responses.iter().any(|r| r.uncertainty.is_some()) {
+        out.push(reference("JCGM", "2008", "Evaluation of measurement data — Guide to the expression of uncertainty in measurement (JCGM 100:2008)", "BIPM, Sèvres", "standard uncertainties of the routine variations"));
+        out.push(reference("S. L. R. Ellison, A. Williams (eds.)", "2012", "Quantifying Uncertainty in Analytical Measurement, 3rd edition (Eurachem/CITAC Guide CG4)", "Eurachem", "uncertainty contributions from robustness effects"));
+    }
+    if study.source == crate::study::model::SourceKind::Development {
+        out.push(reference("ICH", "2023", "Q14: Analytical Procedure Development", "International Council for Harmonisation", "robustness shown during development"));
+    }
+    // One entry per work, first use kept.
+    let mut seen = std::collections::BTreeSet::new();
+    out.retain(|r| seen.insert((r.authors.clone(), r.year.clone(), r.title.clone())));
     out
 }
 
@@ -706,12 +842,20 @@ fn responses_text(evaluated: &Evaluated, figures: &[Figure]) -> Vec<ResponseText
                 ("nominal-mean", _) => format!(
                     "mean of the nominal runs, {}{}",
                     fixed(r.reference, r.decimals + 1),
-                    if unit.is_empty() { String::new() } else { format!(" {unit}") }
+                    if unit.is_empty() {
+                        String::new()
+                    } else {
+                        format!(" {unit}")
+                    }
                 ),
                 (_, PercentOf::Mean) | (_, PercentOf::Nominal) => format!(
                     "mean of the two-level runs, {}{}",
                     fixed(r.reference, r.decimals + 1),
-                    if unit.is_empty() { String::new() } else { format!(" {unit}") }
+                    if unit.is_empty() {
+                        String::new()
+                    } else {
+                        format!(" {unit}")
+                    }
                 ),
             };
             let limit_cell = |relevant: Option<bool>| -> String {
@@ -755,6 +899,8 @@ fn responses_text(evaluated: &Evaluated, figures: &[Figure]) -> Vec<ResponseText
                 ),
             };
             ResponseText {
+                role: r.role.clone(),
+                judging: super::judging::build(study, r),
                 id: r.id.clone(),
                 name: r.name.clone(),
                 unit,
@@ -766,6 +912,7 @@ fn responses_text(evaluated: &Evaluated, figures: &[Figure]) -> Vec<ResponseText
                     .iter()
                     .filter(|f| f.response == r.id)
                     .map(|f| FigureText {
+                        kind: f.kind.to_string(),
                         file: f.file.clone(),
                         caption: f.caption.clone(),
                         alt: f.alt.clone(),

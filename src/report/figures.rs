@@ -21,6 +21,8 @@ use super::format::{fixed, setting};
 pub struct Figure {
     /// Id of the response the figure belongs to.
     pub response: String,
+    /// What the figure is: `halfnormal`, `effects`, `main-effects`, `interaction`, `run-order`.
+    pub kind: &'static str,
     /// File name in the report folder, e.g. `halfnormal-assay.svg`.
     pub file: String,
     /// The SVG document.
@@ -64,7 +66,11 @@ pub fn build(evaluated: &Evaluated) -> Result<Vec<Figure>, PlotError> {
 /// Lenth's ME and SME) belong here too, after the limits: the plot colours points beyond the
 /// first line, so the practical limit stays first.
 pub fn reference_lines(response: &ResponseAnalysis) -> Vec<RefLine> {
-    limit_lines(&response.limits, response.reference, response.unit.as_deref())
+    limit_lines(
+        &response.limits,
+        response.reference,
+        response.unit.as_deref(),
+    )
 }
 
 /// The declared limits as vertical lines in the response's unit (see [`reference_lines`]).
@@ -118,8 +124,27 @@ fn titled(response: &ResponseAnalysis) -> String {
     }
 }
 
+/// Most characters of an axis title along a short panel; longer response names give way to the
+/// response id (the caption carries the full name).
+const SHORT_TITLE_CHARS: usize = 28;
+
+fn short_title(response: &ResponseAnalysis) -> String {
+    let full = titled(response);
+    if full.chars().count() <= SHORT_TITLE_CHARS {
+        return full;
+    }
+    match &response.unit {
+        Some(u) => format!("{} ({u})", response.id),
+        None => response.id.clone(),
+    }
+}
+
 fn unit_suffix(response: &ResponseAnalysis) -> String {
-    response.unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default()
+    response
+        .unit
+        .as_deref()
+        .map(|u| format!(" {u}"))
+        .unwrap_or_default()
 }
 
 /// Mean of each run's determinations for response `r`, indexed like `design.runs`
@@ -237,6 +262,7 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
     };
     Ok(Figure {
         response: response.id.clone(),
+        kind: "halfnormal",
         file: format!("halfnormal-{}.svg", response.id),
         svg,
         caption,
@@ -284,10 +310,15 @@ fn effect_bars_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
             .map(|e| format!("{} {} %", short_label(e), fixed(e.percent.abs(), 2)))
             .collect::<Vec<_>>()
             .join(", ")
-            + if sorted.len() > 5 { " and smaller ones" } else { "" }
+            + if sorted.len() > 5 {
+                " and smaller ones"
+            } else {
+                ""
+            }
     );
     Ok(Figure {
         response: response.id.clone(),
+        kind: "effects",
         file: format!("effects-{}.svg", response.id),
         svg,
         caption,
@@ -341,10 +372,11 @@ fn main_effects_figure(
         panels,
         grand_mean,
         grand_mean_label: "mean of the two-level runs".to_string(),
-        y_title: titled(response),
+        y_title: short_title(response),
     })?;
     Ok(Some(Figure {
         response: response.id.clone(),
+        kind: "main-effects",
         file: format!("main-effects-{}.svg", response.id),
         svg,
         caption: format!(
@@ -428,7 +460,8 @@ fn interaction_figures(
         );
         out.push(Figure {
             response: response.id.clone(),
-            file: format!("interaction-{}-{}-{}.svg", response.id, fa.id, fb.id),
+            kind: "interaction",
+        file: format!("interaction-{}-{}-{}.svg", response.id, fa.id, fb.id),
             svg,
             caption: format!(
                 "Interaction {}×{} on {}: mean response at the four combinations of the two factors' levels ({}; interaction effect {}{}, {} %). Non-parallel lines show the interaction.",
@@ -483,13 +516,16 @@ fn run_order_figure(
         "{} of every run in the order performed{}.",
         titled(response),
         if nominal > 0 {
-            format!("; the {nominal} nominal runs are marked as diamonds and joined, so a trend over time shows")
+            format!(
+                "; the {nominal} nominal runs are marked as diamonds and joined, so a trend over time shows"
+            )
         } else {
             String::new()
         }
     );
     Ok(Some(Figure {
         response: response.id.clone(),
+        kind: "run-order",
         file: format!("run-order-{}.svg", response.id),
         svg,
         caption,
@@ -517,7 +553,11 @@ mod tests {
     #[test]
     fn a_percent_limit_becomes_an_effect_of_limit_times_reference_over_100() {
         // 2 % of 99.8 is 1.996 (arithmetic).
-        let lines = limit_lines(&[limit(2.0, LimitUnit::Percent)], 99.8, Some("% label claim"));
+        let lines = limit_lines(
+            &[limit(2.0, LimitUnit::Percent)],
+            99.8,
+            Some("% label claim"),
+        );
         assert_eq!(lines.len(), 1);
         assert!((lines[0].value - 1.996).abs() < 1e-12);
         assert_eq!(lines[0].name, "limit (2 %)");
@@ -536,7 +576,10 @@ mod tests {
     #[test]
     fn the_strictest_of_several_limits_is_drawn_on_the_bar_chart() {
         // 1.0 absolute against 50 is 2 %, stricter than 3 % (arithmetic).
-        let limits = [limit(3.0, LimitUnit::Percent), limit(1.0, LimitUnit::Absolute)];
+        let limits = [
+            limit(3.0, LimitUnit::Percent),
+            limit(1.0, LimitUnit::Absolute),
+        ];
         assert!((strictest_percent(&limits, 50.0).unwrap() - 2.0).abs() < 1e-12);
     }
 
@@ -548,6 +591,9 @@ mod tests {
 
     #[test]
     fn a_zero_reference_gives_no_percent_limit_instead_of_infinity() {
-        assert_eq!(strictest_percent(&[limit(1.0, LimitUnit::Absolute)], 0.0), None);
+        assert_eq!(
+            strictest_percent(&[limit(1.0, LimitUnit::Absolute)], 0.0),
+            None
+        );
     }
 }

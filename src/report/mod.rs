@@ -10,6 +10,7 @@ pub mod context;
 pub mod escape;
 pub mod figures;
 pub mod format;
+pub mod judging;
 pub mod render;
 pub mod runsheet;
 pub mod tables;

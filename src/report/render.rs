@@ -13,9 +13,18 @@ use super::{ReportError, escape};
 
 /// The built-in templates, by name.
 pub const BUILT_IN: &[(&str, &str)] = &[
-    ("report.typ.j2", include_str!("../../templates/report.typ.j2")),
-    ("section.typ.j2", include_str!("../../templates/section.typ.j2")),
-    ("runsheet.typ.j2", include_str!("../../templates/runsheet.typ.j2")),
+    (
+        "report.typ.j2",
+        include_str!("../../templates/report.typ.j2"),
+    ),
+    (
+        "section.typ.j2",
+        include_str!("../../templates/section.typ.j2"),
+    ),
+    (
+        "runsheet.typ.j2",
+        include_str!("../../templates/runsheet.typ.j2"),
+    ),
 ];
 
 /// The variables the templates receive, for lab template authors (exported with them).
@@ -36,10 +45,10 @@ pub struct TemplateError {
 impl From<minijinja::Error> for TemplateError {
     fn from(e: minijinja::Error) -> Self {
         let mut message = e.to_string();
-        if let (Some(name), Some(line)) = (e.name(), e.line()) {
-            if !message.contains(name) {
-                message = format!("{name}:{line}: {message}");
-            }
+        if let (Some(name), Some(line)) = (e.name(), e.line())
+            && !message.contains(name)
+        {
+            message = format!("{name}:{line}: {message}");
         }
         Self {
             message,
@@ -103,7 +112,8 @@ pub fn export_templates(dir: &Path) -> Result<Vec<PathBuf>, ReportError> {
                     ReportError::write(&path, e)
                 }
             })?;
-        f.write_all(text.as_bytes()).map_err(|e| ReportError::write(&path, e))?;
+        f.write_all(text.as_bytes())
+            .map_err(|e| ReportError::write(&path, e))?;
         written.push(path);
     }
     Ok(written)
@@ -124,10 +134,10 @@ pub fn environment(user_dir: Option<&Path>) -> Environment<'static> {
     }
     let user = user_dir.map(minijinja::path_loader);
     env.set_loader(move |name| {
-        if let Some(load) = &user {
-            if let Some(source) = load(name)? {
-                return Ok(Some(source));
-            }
+        if let Some(load) = &user
+            && let Some(source) = load(name)?
+        {
+            return Ok(Some(source));
         }
         Ok(BUILT_IN
             .iter()
@@ -153,7 +163,9 @@ pub fn environment(user_dir: Option<&Path>) -> Environment<'static> {
             minijinja::escape_formatter(out, state, value)
         }
     });
-    env.add_filter("str", |v: String| Value::from_safe_string(format!("\"{}\"", escape::string_literal(&v))));
+    env.add_filter("str", |v: String| {
+        Value::from_safe_string(format!("\"{}\"", escape::string_literal(&v)))
+    });
     env
 }
 

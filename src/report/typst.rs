@@ -125,7 +125,7 @@ impl Typst {
             .arg("--ignore-system-fonts")
             .args(["--creation-timestamp", &creation_timestamp.to_string()])
             .args(["--pdf-standard", "a-2b"])
-            .args(["--diagnostic-format", "short", "--color", "never"])
+            .args(["--diagnostic-format", "short"])
             .arg("--package-path")
             .arg(empty_packages)
             .arg("--package-cache-path")

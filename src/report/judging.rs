@@ -1,0 +1,265 @@
+//! The statistical parts of the chapter as printable text: criteria with their numbers, the
+//! second verdict, ANOVA, curvature, drift, worst case and system-suitability limit, operating
+//! ranges and uncertainty contributions.
+
+use serde::Serialize;
+
+use crate::analysis::ResponseAnalysis;
+use crate::analysis::decision::{Distribution, WorseLevel};
+use crate::study::Study;
+
+use super::conclusion::significance_text;
+use super::format::{fixed, setting};
+
+/// The statistical blocks of one response.
+#[derive(Debug, Default, Serialize)]
+pub struct JudgingText {
+    /// Each statistical criterion in words with its numbers.
+    pub criteria: Vec<String>,
+    /// Short names of the statistical criteria (table column headers).
+    pub columns: Vec<String>,
+    /// Per effect row, one cell per statistical criterion (`yes`, `no`, `–`).
+    pub cells: Vec<Vec<String>>,
+    /// The statistical verdict in words.
+    pub verdict: Option<String>,
+    /// ANOVA table rows: source, SS, df, MS, F, p.
+    pub anova: Vec<[String; 6]>,
+    /// Notes under the ANOVA table.
+    pub anova_notes: Vec<String>,
+    /// Curvature in words.
+    pub curvature: Option<String>,
+    /// Drift in words.
+    pub drift: Option<String>,
+    /// Worst case and proposed limit in words.
+    pub worst_case: Option<String>,
+    /// Worst-case settings: factor, effect, level.
+    pub worst_rows: Vec<[String; 3]>,
+    /// Operating ranges: factor, criterion, proposed range, tested range.
+    pub ranges: Vec<[String; 4]>,
+    /// Precautions for categorical factors.
+    pub precautions: Vec<String>,
+    /// Uncertainty rows: factor, ±a, distribution, u(x), c, u_i(y).
+    pub uncertainty: Vec<[String; 6]>,
+    /// Combined standard uncertainty.
+    pub combined: Option<String>,
+    /// Remarks of the analysis (excluded runs, least squares, ...).
+    pub notes: Vec<String>,
+}
+
+fn p_text(p: Option<f64>) -> String {
+    match p {
+        Some(p) if p < 0.001 => "< 0.001".to_string(),
+        Some(p) => fixed(p, 3),
+        None => "–".to_string(),
+    }
+}
+
+fn factor_name(study: &Study, id: &str) -> String {
+    study
+        .factors
+        .iter()
+        .find(|f| f.id == id)
+        .map_or_else(|| id.to_string(), |f| f.name.clone())
+}
+
+fn unit_of(study: &Study, id: &str) -> String {
+    study
+        .factors
+        .iter()
+        .find(|f| f.id == id)
+        .and_then(|f| f.unit.clone())
+        .map(|u| format!(" {u}"))
+        .unwrap_or_default()
+}
+
+/// Significant digits for derived quantities that have no natural decimals.
+fn sig(x: f64, digits: i32) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return fixed(x, 0);
+    }
+    let d = (digits - 1 - x.abs().log10().floor() as i32).clamp(0, 10) as u32;
+    fixed(x, d)
+}
+
+/// Builds the statistical blocks of a response.
+pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
+    let d = r.decimals + 1;
+    let unit = r.unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default();
+    let mut out = JudgingText {
+        notes: r.notes.clone(),
+        ..JudgingText::default()
+    };
+    let statistical: Vec<&crate::analysis::judge::CriterionSummary> =
+        r.criteria.iter().filter(|c| c.method != "effect-limit").collect();
+    for c in &statistical {
+        out.criteria.push(significance_text(r, c));
+        out.columns.push(match c.method.as_str() {
+            "precision" => "Sig. (s)".to_string(),
+            "dummies" => "Sig. (dummies)".to_string(),
+            "negligible" => "Sig. (negl.)".to_string(),
+            "dong" => "Sig. (Dong)".to_string(),
+            "lenth" => "Sig. (Lenth)".to_string(),
+            "anova" => "Sig. (ANOVA)".to_string(),
+            other => other.to_string(),
+        });
+    }
+    for e in &r.effects {
+        let cells = e
+            .significance
+            .iter()
+            .enumerate()
+            .map(|(i, v)| match v {
+                Some(true) if i == 0 && e.exceeds_sme == Some(true) => "yes (SME)".to_string(),
+                Some(true) => "yes".to_string(),
+                Some(false) => "no".to_string(),
+                None => "–".to_string(),
+            })
+            .collect();
+        out.cells.push(cells);
+    }
+    if let Some(first) = statistical.first() {
+        out.verdict = Some(if first.e_crit.is_none() {
+            format!(
+                "The first statistical criterion could not judge: {}.",
+                first.note.clone().unwrap_or_default()
+            )
+        } else if r.verdict.significant_factors.is_empty() {
+            "Statistically, no main effect is significant.".to_string()
+        } else {
+            format!(
+                "Statistically significant main effects: {}.",
+                r.verdict
+                    .significant_factors
+                    .iter()
+                    .map(|f| factor_name(study, f))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            )
+        });
+    }
+    if let Some(a) = &r.anova {
+        let row = |x: &crate::analysis::anova::AnovaRow| {
+            [
+                x.source.clone(),
+                sig(x.ss, 4),
+                x.df.to_string(),
+                x.ms.map_or_else(|| "–".into(), |v| sig(v, 4)),
+                x.f.map_or_else(|| "–".into(), |v| sig(v, 4)),
+                p_text(x.p),
+            ]
+        };
+        for t in &a.terms {
+            out.anova.push(row(t));
+        }
+        if a.lack_of_fit.df > 0 {
+            out.anova.push(row(&a.lack_of_fit));
+        }
+        out.anova.push(row(&a.pure_error));
+        out.anova.push(row(&a.total));
+        out.anova_notes.extend(a.note.clone());
+        out.anova_notes.extend(a.warnings.iter().cloned());
+    }
+    if let Some(c) = &r.curvature {
+        out.curvature = Some(format!(
+            "Curvature: mean of the two-level runs minus mean of the {} nominal runs = {}{unit}, SE = {}, t = {}, df = {}, p = {} (pure error from {}).",
+            c.n_centre,
+            fixed(c.difference, d),
+            fixed(c.se, d),
+            c.t.map_or_else(|| "–".into(), |t| fixed(t, 2)),
+            setting(c.df),
+            p_text(c.p),
+            if c.s_from_centre_points { "the nominal runs" } else { "the replicated runs" }
+        ));
+    }
+    if let Some(dr) = &r.drift {
+        out.drift = Some(match (&dr.check, &dr.note) {
+            (Some(c), _) => format!(
+                "Drift: the {} nominal runs change by {}{unit} per run in the run order (SE {}, t = {}, df = {}, p = {}){}.",
+                c.n,
+                fixed(c.slope, d + 1),
+                fixed(c.se_slope, d + 1),
+                c.t.map_or_else(|| "–".into(), |t| fixed(t, 2)),
+                c.df,
+                p_text(c.p),
+                match dr.correction {
+                    Some(crate::analysis::drift::CorrectionMode::Additive) => "; responses were corrected additively by interpolating between neighbouring nominal runs",
+                    Some(crate::analysis::drift::CorrectionMode::Relative) => "; responses were corrected relatively by interpolating between neighbouring nominal runs",
+                    None => "; no correction was applied",
+                }
+            ),
+            (None, Some(n)) => format!("Drift: {n}."),
+            (None, None) => String::new(),
+        })
+        .filter(|s| !s.is_empty());
+    }
+    if let Some(w) = &r.worst_case {
+        let lower = w.prediction.direction == crate::analysis::decision::Direction::Lower;
+        out.worst_case = Some(format!(
+            "Worst case within the studied domain, from the {}: ŷ = {} {} Σ|E|/2 = {}{unit}{}. Proposed system-suitability limit: {} {}{unit}.",
+            w.basis,
+            fixed(w.prediction.mean, d),
+            if lower { "−" } else { "+" },
+            fixed(w.prediction.predicted, r.decimals),
+            match (w.min, w.max, w.meets) {
+                (Some(m), _, Some(true)) => format!(", which meets the required minimum {}", setting(m)),
+                (Some(m), _, Some(false)) => format!(", below the required minimum {}: the method does not meet it over the whole domain", setting(m)),
+                (None, Some(m), Some(true)) => format!(", which meets the allowed maximum {}", setting(m)),
+                (None, Some(m), Some(false)) => format!(", above the allowed maximum {}: the method does not meet it over the whole domain", setting(m)),
+                _ => String::new(),
+            },
+            if lower { "≥" } else { "≤" },
+            fixed(w.proposed_limit, r.decimals),
+        ));
+        for f in &w.prediction.factors {
+            out.worst_rows.push([
+                factor_name(study, &f.label),
+                fixed(f.effect, d),
+                match f.level {
+                    WorseLevel::High => "high (+1)".into(),
+                    WorseLevel::Low => "low (−1)".into(),
+                    WorseLevel::Either => "either".into(),
+                },
+            ]);
+        }
+    }
+    for c in &r.control_ranges {
+        match &c.statement {
+            Some(s) => out.precautions.push(format!("{s}.")),
+            None => {
+                let u = unit_of(study, &c.factor);
+                out.ranges.push([
+                    factor_name(study, &c.factor),
+                    if c.basis == "relevance" { "acceptance limit".into() } else { "statistical criterion".into() },
+                    match (c.low, c.high) {
+                        (Some(lo), Some(hi)) => format!("{} to {}{u}", sig(lo, 4), sig(hi, 4)),
+                        _ => "–".into(),
+                    },
+                    format!(
+                        "{} to {}{u}",
+                        c.tested_low.map(setting).unwrap_or_default(),
+                        c.tested_high.map(setting).unwrap_or_default()
+                    ),
+                ]);
+            }
+        }
+    }
+    if let Some(u) = &r.uncertainty {
+        for row in &u.rows {
+            let fu = unit_of(study, &row.factor);
+            out.uncertainty.push([
+                factor_name(study, &row.factor),
+                format!("±{}{fu}", setting(row.routine)),
+                match row.distribution {
+                    Distribution::Rectangular => "rectangular (a/√3)".into(),
+                    Distribution::Triangular => "triangular (a/√6)".into(),
+                    Distribution::Normal95 => "normal, 95 % (a/1.96)".into(),
+                },
+                format!("{}{fu}", sig(row.contribution.u_x, 3)),
+                sig(row.contribution.c, 3),
+                format!("{}{unit}", sig(row.contribution.u_y, 3)),
+            ]);
+        }
+        out.combined = Some(format!("{}{unit}", sig(u.combined, 3)));
+    }
+    out
+}
