@@ -108,17 +108,25 @@ fn report_without_pdf_writes_the_documented_files_and_nothing_else() {
         .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
         .collect();
     names.sort();
-    assert_eq!(
-        names,
-        [
-            "analysis.json",
-            "effects-assay.csv",
-            "effects-resolution.csv",
-            "factors.csv",
-            "report.typ",
-            "runs.csv"
-        ]
-    );
+    let mut expected: Vec<String> = [
+        "analysis.json",
+        "effects-assay.csv",
+        "effects-resolution.csv",
+        "factors.csv",
+        "report.typ",
+        "runs.csv",
+        "section.typ",
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .collect();
+    for response in ["assay", "resolution"] {
+        for kind in ["halfnormal", "effects", "main-effects", "run-order"] {
+            expected.push(format!("{kind}-{response}.svg"));
+        }
+    }
+    expected.sort();
+    assert_eq!(names, expected, "no report.pdf without a typesetter");
     // Nothing is left beside the report folder either (no staging folders).
     assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 1);
 }

@@ -439,7 +439,11 @@ pub fn analyse_response(
     };
 
     // 12. Uncertainty contributions.
-    let uncertainty = uncertainty(study, &effects_out);
+    let uncertainty = if response.role == Role::Assay {
+        uncertainty(study, &effects_out)
+    } else {
+        None // the uncertainty budget is for results; suitability responses set limits instead
+    };
 
     let run_values = design
         .runs_in_order()

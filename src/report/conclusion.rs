@@ -134,7 +134,7 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
     }
     out.push(format!(
         "{} factors were varied in {} two-level runs{}: {}.",
-        study.factors.len(),
+        count_word(study.factors.len()),
         two_level,
         if analysis.design.center_points > 0 {
             format!(" and {} nominal runs", analysis.design.center_points)
@@ -206,7 +206,7 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
             } else if significant.is_empty() {
                 "showed no significant main effect".to_string()
             } else {
-                format!("showed significant main effects of {}", significant.join(", "))
+                format!("showed significant main effects of {}", and_list(&significant))
             };
             out.push(format!(
                 "{}: judged by the {}, the study {verdict}.",
@@ -328,7 +328,7 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
             out.push(format!(
                 "{}: the routine variation of {} contributes a combined standard uncertainty of {}{}.",
                 response.name,
-                u.rows.iter().map(|r| factor_name(study, &r.factor)).collect::<Vec<_>>().join(", "),
+                and_list(&u.rows.iter().map(|r| factor_name(study, &r.factor)).collect::<Vec<_>>()),
                 fixed(u.combined, response.decimals + 1),
                 response.unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default()
             ));
@@ -350,7 +350,7 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
         if analysis.non_robust_factors.is_empty() {
             out.push(format!(
                 "Within the tested ranges and under the criteria declared before the data were seen, none of the factors had a relevant effect on {}; the method is robust for these ranges.",
-                names.join(", ")
+                and_list(&names.iter().map(|s| s.to_string()).collect::<Vec<_>>())
             ));
         } else {
             let critical: Vec<String> = analysis
@@ -360,14 +360,14 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
                 .collect();
             out.push(format!(
                 "The method is not robust to {} over the tested range: {} must be controlled more tightly than it was varied here.",
-                critical.join(", "),
+                and_list(&critical),
                 if critical.len() == 1 { "this parameter" } else { "these parameters" }
             ));
             if !robust_factors.is_empty() {
                 out.push(format!(
                     "{} had no relevant effect on {} within the tested ranges.",
-                    robust_factors.join(", "),
-                    names.join(", ")
+                    and_list(&robust_factors),
+                    and_list(&names.iter().map(|s| s.to_string()).collect::<Vec<_>>())
                 ));
             }
         }
@@ -414,6 +414,25 @@ fn limitations(study: &Study, analysis: &Analysis) -> Vec<String> {
     s.push('.');
     out.push(s);
     out
+}
+
+/// A count at the start of a sentence: a word up to twelve (common practice in technical
+/// writing), digits beyond.
+fn count_word(n: usize) -> String {
+    const WORDS: [&str; 13] = [
+        "No", "One", "Two", "Three", "Four", "Five", "Six", "Seven", "Eight", "Nine", "Ten",
+        "Eleven", "Twelve",
+    ];
+    WORDS.get(n).map_or_else(|| n.to_string(), |w| (*w).to_string())
+}
+
+/// Items joined as prose: `a`, `a and b`, `a, b and c`.
+pub fn and_list(items: &[String]) -> String {
+    match items {
+        [] => String::new(),
+        [one] => one.clone(),
+        [init @ .., last] => format!("{} and {last}", init.join(", ")),
+    }
 }
 
 /// `x` rounded to `digits` significant digits.
