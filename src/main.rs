@@ -93,8 +93,23 @@ enum Command {
         #[arg(long)]
         factors: Option<usize>,
     },
+    /// Work with the report templates.
+    Templates {
+        #[command(subcommand)]
+        action: TemplatesAction,
+    },
     /// Print the JSON Schema of the study file.
     Schema,
+}
+
+#[derive(Subcommand)]
+enum TemplatesAction {
+    /// Write the built-in templates and a README of their variables into DIR (never
+    /// overwrites), to be changed and used with `plateau report --templates DIR`.
+    Export {
+        /// The folder to write to (created if needed).
+        dir: PathBuf,
+    },
 }
 
 #[derive(Clone, Copy, clap::ValueEnum)]
@@ -160,6 +175,11 @@ fn run(command: Command) -> Result<(), Failure> {
     match command {
         Command::Check { study } => {
             let (s, design) = pipeline::plan(&study)?;
+            // Read the results before printing anything, so a failing file shows only errors.
+            let results = match s.results {
+                Some(_) => Some(pipeline::evaluate(&study)?),
+                None => None,
+            };
             println!("ok  {}: study {} ({})", study.display(), s.info.id, s.info.title);
             println!(
                 "ok  design: {} runs ({} two-level, {} nominal), {} estimable contrasts",
@@ -168,16 +188,14 @@ fn run(command: Command) -> Result<(), Failure> {
                 design.nominal_count(),
                 design.contrasts.len()
             );
-            if s.results.is_none() {
-                println!("ok  no results yet: `plateau design` prints the run sheet to fill in");
-                return Ok(());
+            match results {
+                Some(evaluated) => println!(
+                    "ok  results: {} runs × {} responses",
+                    evaluated.data.values.len(),
+                    s.responses.len()
+                ),
+                None => println!("ok  no results yet: `plateau design` prints the run sheet to fill in"),
             }
-            let evaluated = pipeline::evaluate(&study)?;
-            println!(
-                "ok  results: {} runs × {} responses",
-                evaluated.data.values.len(),
-                s.responses.len()
-            );
             Ok(())
         }
         Command::Design {
@@ -287,6 +305,15 @@ fn run(command: Command) -> Result<(), Failure> {
                 Err(report::ReportError::Typst(e)) => Err(Failure::Typesetter(e.to_string())),
                 Err(e) => Err(Failure::Other(e.to_string())),
             }
+        }
+        Command::Templates {
+            action: TemplatesAction::Export { dir },
+        } => {
+            let written = report::export_templates(&dir).map_err(|e| Failure::Other(e.to_string()))?;
+            for path in written {
+                println!("ok  wrote {}", path.display());
+            }
+            Ok(())
         }
         Command::Schema => {
             print!("{}", plateau::study::schema::SCHEMA_TEXT);
