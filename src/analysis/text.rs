@@ -1,10 +1,11 @@
 //! The effects tables as plain text for the terminal (`plateau analyze`).
 
 use crate::pipeline::Evaluated;
-use crate::report::conclusion::{PERCENT_DECIMALS, limit_text};
+use crate::report::conclusion::{PERCENT_DECIMALS, limit_text, sentences};
 use crate::report::format::fixed;
+use crate::report::judging;
 
-/// One table per response, then the verdicts.
+/// One table per response with both verdicts, then the conclusion.
 pub fn tables(evaluated: &Evaluated) -> String {
     let mut out = String::new();
     let a = &evaluated.analysis;
@@ -19,15 +20,20 @@ pub fn tables(evaluated: &Evaluated) -> String {
     ));
     for r in &a.responses {
         let unit = r.unit.as_deref().unwrap_or("");
+        let j = judging::build(&evaluated.study, r);
         out.push_str(&format!(
-            "\n{} [{}]{}\n  reference ({}): {}\n  criterion: {}\n",
+            "\n{} [{}]{}{}\n  reference ({}): {}\n  acceptance: {}\n",
             r.name,
             r.id,
             if unit.is_empty() { String::new() } else { format!(" ({unit})") },
+            if r.role == "suitability" { ", suitability response" } else { "" },
             r.reference_kind,
             fixed(r.reference, r.decimals + 1),
-            limit_text(r).unwrap_or_else(|| "none declared".into())
+            limit_text(r).unwrap_or_else(|| "no effect limit declared".into())
         ));
+        for c in &j.criteria {
+            out.push_str(&format!("  statistical: {c}\n"));
+        }
         let width = r
             .effects
             .iter()
@@ -35,14 +41,15 @@ pub fn tables(evaluated: &Evaluated) -> String {
             .max()
             .unwrap_or(4)
             .max(4);
-        out.push_str(&format!(
-            "  {:<width$}  {:>12}  {:>10}  relevant\n",
-            "term", "effect", "% effect"
-        ));
-        for e in &r.effects {
+        out.push_str(&format!("  {:<width$}  {:>12}  {:>10}  {:>8}", "term", "effect", "% effect", "relevant"));
+        for c in &j.columns {
+            out.push_str(&format!("  {c:>15}"));
+        }
+        out.push('\n');
+        for (i, e) in r.effects.iter().enumerate() {
             let pad = width.saturating_sub(e.label.chars().count());
             out.push_str(&format!(
-                "  {}{}  {:>12}  {:>10}  {}\n",
+                "  {}{}  {:>12}  {:>10}  {:>8}",
                 e.label,
                 " ".repeat(pad),
                 fixed(e.effect, r.decimals + 1),
@@ -53,15 +60,24 @@ pub fn tables(evaluated: &Evaluated) -> String {
                     None => "-",
                 }
             ));
-        }
-        out.push_str(&format!(
-            "  verdict: {}\n",
-            match r.verdict.robust {
-                None => "no criterion declared".to_string(),
-                Some(true) => "no relevant main effect".to_string(),
-                Some(false) => format!("relevant main effects: {}", r.verdict.relevant_factors.join(", ")),
+            for c in j.cells.get(i).into_iter().flatten() {
+                out.push_str(&format!("  {c:>15}"));
             }
-        ));
+            out.push('\n');
+        }
+        for line in [&j.curvature, &j.drift, &j.worst_case].into_iter().flatten() {
+            out.push_str(&format!("  {line}\n"));
+        }
+        for row in &j.ranges {
+            out.push_str(&format!("  operating range: {} {} ({}; tested {})\n", row[0], row[2], row[1], row[3]));
+        }
+        for n in &j.notes {
+            out.push_str(&format!("  note: {n}\n"));
+        }
+    }
+    out.push_str("\nconclusion:\n");
+    for s in sentences(&evaluated.study, a) {
+        out.push_str(&format!("  {s}\n"));
     }
     out
 }

@@ -226,6 +226,8 @@ fn describe(
             };
             let expected = if path.to_string() == "design.runs" {
                 "expected a number of runs (fractional-factorial, plackett-burman); only `kind: explicit` takes a list of runs, and a full factorial takes no `runs`".to_string()
+            } else if matches!(instance, Value::Bool(_)) && expected.contains("text") {
+                format!("{expected}; YAML reads words such as y, n, yes, no, on, off, true and false as true or false: put the text in quotes")
             } else if path.0.is_empty() {
                 "expected a mapping of the study sections (schema, study, factors, design, responses, ...)".to_string()
             } else {
