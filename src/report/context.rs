@@ -58,6 +58,8 @@ pub struct Context {
     pub references: Vec<Reference>,
     /// Runs left out of the evaluation: run id and reason.
     pub excluded: Vec<ExcludedText>,
+    /// The laboratory's document frame (`report:` in the study).
+    pub document: DocumentText,
     /// The review and approval block: prepared by, reviewed by, approved by.
     pub approval: Vec<Signatory>,
     /// True when any response has a figure.
@@ -201,6 +203,31 @@ pub struct PartialAliasRow {
     pub correlations: String,
 }
 
+/// The laboratory's document frame.
+#[derive(Debug, Serialize)]
+pub struct DocumentText {
+    /// Document number.
+    pub number: Option<String>,
+    /// Document version.
+    pub version: Option<String>,
+    /// Page header text.
+    pub header: Option<String>,
+    /// Page footer text.
+    pub footer: Option<String>,
+    /// File name of the logo in the report folder.
+    pub logo: Option<String>,
+}
+
+/// The name the logo gets in the report folder (`logo.png`, ...).
+pub fn logo_file_name(study: &crate::study::Study) -> Option<String> {
+    let logo = study.report.logo.as_ref()?;
+    let ext = std::path::Path::new(logo)
+        .extension()?
+        .to_string_lossy()
+        .to_lowercase();
+    Some(format!("logo.{ext}"))
+}
+
 /// A run left out of the evaluation.
 #[derive(Debug, Serialize)]
 pub struct ExcludedText {
@@ -331,8 +358,12 @@ pub fn setting_of(f: &Factor, coded: i8) -> String {
 /// Hook for the study field `report.section` (to be read here when it exists); until then
 /// every report is chapter [`DEFAULT_SECTION`].
 pub fn section_of(evaluated: &Evaluated) -> String {
-    let _ = evaluated;
-    DEFAULT_SECTION.to_string()
+    evaluated
+        .study
+        .report
+        .section
+        .clone()
+        .unwrap_or_else(|| DEFAULT_SECTION.to_string())
 }
 
 /// Number of dot-separated components of a section number (`7.4` → 2), at least 1.
@@ -431,6 +462,13 @@ pub fn build(evaluated: &Evaluated, typst_version: Option<&str>, figures: &[Figu
             .collect(),
         has_justification: study.factors.iter().any(|f| f.justification.is_some()),
         references: references(evaluated, has_figures),
+        document: DocumentText {
+            number: study.report.document.clone(),
+            version: study.report.version.clone(),
+            header: study.report.header.clone(),
+            footer: study.report.footer.clone(),
+            logo: logo_file_name(study),
+        },
         excluded: study
             .excluded
             .iter()

@@ -107,6 +107,19 @@ pub fn render_files(
         .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
     files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));
     files.extend(tables::csv_files(evaluated));
+    if let (Some(logo), Some(name)) = (
+        &evaluated.study.report.logo,
+        context::logo_file_name(&evaluated.study),
+    ) {
+        let path = evaluated
+            .study
+            .path
+            .parent()
+            .unwrap_or_else(|| Path::new("."))
+            .join(logo);
+        let bytes = std::fs::read(&path).map_err(|e| ReportError::write(&path, e))?;
+        files.push((name, bytes));
+    }
     Ok(files)
 }
 

@@ -60,6 +60,23 @@ pub fn study(
     let responses = responses(&mut c, &file, &design, design_ok);
     let (limits, significance, suitability) = acceptance(&mut c, &file, &responses);
     let excluded = exclusions(&mut c, &file.excluded);
+    if let Some(logo) = file.report.as_ref().and_then(|r| r.logo.as_ref()) {
+        let full = path.parent().unwrap_or_else(|| Path::new(".")).join(logo);
+        let size = std::fs::metadata(&full).map(|m| m.len());
+        match size {
+            Err(_) => c.report(
+                &FieldPath::of(&["report", "logo"]),
+                format!("the logo `{logo}` cannot be read"),
+                Some(format!("expected an image file at {}", full.display())),
+            ),
+            Ok(n) if n > 2 * 1024 * 1024 => c.report(
+                &FieldPath::of(&["report", "logo"]),
+                format!("the logo is {n} bytes"),
+                Some("expected at most 2 MiB".into()),
+            ),
+            Ok(_) => {}
+        }
+    }
     if file.study.source_reference.is_some() && file.study.source != Some(model::SourceKind::Development) {
         c.report(
             &FieldPath::of(&["study", "source-reference"]),
@@ -89,6 +106,7 @@ pub fn study(
         suitability,
         excluded,
         source,
+        report: file.report.unwrap_or_default(),
         results: file.results,
         notes: file.notes,
     })

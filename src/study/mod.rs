@@ -56,6 +56,8 @@ pub struct Study {
     pub excluded: Vec<Exclusion>,
     /// Where the data come from.
     pub source: model::SourceKind,
+    /// Dossier numbering and document frame.
+    pub report: model::ReportSpec,
     /// Where the results come from (`None` while the study is being planned).
     pub results: Option<model::ResultsSpec>,
     /// Analyst notes.

@@ -32,9 +32,36 @@ pub struct StudyFile {
     /// Runs left out of the evaluation, each with its reason (printed in the report).
     #[serde(default)]
     pub excluded: Vec<ExclusionSpec>,
+    /// How the chapter fits the laboratory's dossier.
+    #[serde(default)]
+    pub report: Option<ReportSpec>,
     /// Free text by the analyst; printed literally in the report.
     #[serde(default)]
     pub notes: Option<String>,
+}
+
+/// The `report` section: dossier numbering and the laboratory's document frame.
+#[derive(Debug, Clone, Default, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct ReportSpec {
+    /// Section number of the chapter in the dossier, e.g. `7.4`.
+    #[serde(default)]
+    pub section: Option<String>,
+    /// Document number.
+    #[serde(default)]
+    pub document: Option<String>,
+    /// Document version.
+    #[serde(default)]
+    pub version: Option<String>,
+    /// Page header text.
+    #[serde(default)]
+    pub header: Option<String>,
+    /// Page footer text.
+    #[serde(default)]
+    pub footer: Option<String>,
+    /// Logo image (PNG, JPEG or SVG) relative to the study file.
+    #[serde(default)]
+    pub logo: Option<String>,
 }
 
 /// A run left out of the evaluation.
