@@ -10,9 +10,12 @@
 #![deny(missing_docs)]
 
 pub mod analysis;
+pub mod batch;
 pub mod design;
+pub mod diff;
 pub mod pipeline;
 pub mod plot;
 pub mod report;
 pub mod starter;
 pub mod study;
+pub mod verify;

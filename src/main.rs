@@ -45,11 +45,21 @@ enum Command {
     /// Write the report folder: PDF, Typst source, tables (CSV) and analysis.json.
     #[command(after_help = EXIT_CODES)]
     Report {
-        /// The study file.
-        study: PathBuf,
-        /// Report folder [default: <study stem>-report beside the study file].
+        /// Study files, or folders searched recursively for study files.
+        #[arg(required = true)]
+        studies: Vec<PathBuf>,
+        /// Report folder of a single study [default: <study stem>-report beside the study file].
         #[arg(short, long, value_name = "DIR")]
         output: Option<PathBuf>,
+        /// Rebuild reports whose inputs are unchanged.
+        #[arg(long)]
+        force: bool,
+        /// Studies processed at the same time [default: the number of cores].
+        #[arg(short = 'j', long, value_name = "N")]
+        jobs: Option<usize>,
+        /// Print only failures and the final count.
+        #[arg(short, long)]
+        quiet: bool,
         /// Folder of templates that override the built-in ones file by file.
         #[arg(long, value_name = "DIR")]
         templates: Option<PathBuf>,
@@ -92,6 +102,19 @@ enum Command {
         /// Number of factors [default: 3, 5 or 7 by kind].
         #[arg(long)]
         factors: Option<usize>,
+    },
+    /// List each study's report as current, stale (and why) or missing; exit 1 unless all
+    /// are current.
+    #[command(after_help = EXIT_CODES)]
+    Status {
+        /// Study files, or folders searched recursively [default: the current folder].
+        paths: Vec<PathBuf>,
+        /// The template folder the reports are made with.
+        #[arg(long, value_name = "DIR")]
+        templates: Option<PathBuf>,
+        /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
+        #[arg(long, value_name = "PATH")]
+        typst: Option<PathBuf>,
     },
     /// Work with the report templates.
     Templates {
@@ -136,6 +159,8 @@ impl From<KindArg> for DesignKind {
 enum Failure {
     Invalid(Diagnostics),
     Usage(String),
+    /// Already reported; only the exit code is left.
+    Silent(u8),
     Other(String),
     Typesetter(String),
 }
@@ -156,6 +181,7 @@ fn main() -> ExitCode {
             }
             ExitCode::from(1)
         }
+        Err(Failure::Silent(code)) => ExitCode::from(code),
         Err(Failure::Usage(message)) => {
             eprintln!("error: {message}");
             ExitCode::from(2)
@@ -277,33 +303,110 @@ fn run(command: Command) -> Result<(), Failure> {
             Ok(())
         }
         Command::Report {
-            study,
+            studies,
             output,
+            force,
+            jobs,
+            quiet,
             templates,
             typst: typst_path,
             no_pdf,
         } => {
-            let evaluated = pipeline::evaluate(&study)?;
+            let files = plateau::batch::discover(&studies)?;
+            if files.is_empty() {
+                return Err(Failure::Usage(
+                    "no study files found (a study file is a .yaml file with a top-level `schema:` key)".into(),
+                ));
+            }
+            if output.is_some() && files.len() > 1 {
+                return Err(Failure::Usage(
+                    "-o/--output names the folder of a single study; leave it out for several".into(),
+                ));
+            }
             let typst = if no_pdf {
                 None
             } else {
-                Some(
-                    typst::find(typst_path.as_deref())
-                        .map_err(|e| Failure::Typesetter(e.to_string()))?,
-                )
+                Some(typst::find(typst_path.as_deref()).map_err(|e| Failure::Typesetter(e.to_string()))?)
             };
             let options = report::Options {
                 out_dir: output,
                 templates,
                 typst,
             };
-            match report::write(&evaluated, &options) {
-                Ok(dir) => {
-                    println!("ok  report written to {}", dir.display());
-                    Ok(())
+            if files.len() == 1 {
+                let outcome = report_one(&files[0], &options, force);
+                return match outcome.failure {
+                    Some(f) => Err(f),
+                    None => {
+                        if outcome.skipped {
+                            println!(
+                                "ok  report in {} is current (inputs unchanged; --force rebuilds)",
+                                outcome.dir.display()
+                            );
+                        } else {
+                            println!("ok  report written to {}", outcome.dir.display());
+                        }
+                        Ok(())
+                    }
+                };
+            }
+            let outcomes = run_batch(&files, &options, force, jobs, quiet);
+            let failed = outcomes.iter().filter(|o| o.failure.is_some()).count();
+            let skipped = outcomes.iter().filter(|o| o.skipped).count();
+            println!(
+                "{} studies: {} written, {} current (skipped), {} failed",
+                outcomes.len(),
+                outcomes.len() - skipped - failed,
+                skipped,
+                failed
+            );
+            let typesetter = outcomes
+                .iter()
+                .any(|o| matches!(o.failure, Some(Failure::Typesetter(_))));
+            match (failed, typesetter) {
+                (0, _) => Ok(()),
+                (_, true) => Err(Failure::Silent(3)),
+                _ => Err(Failure::Silent(1)),
+            }
+        }
+        Command::Status {
+            paths,
+            templates,
+            typst: typst_path,
+        } => {
+            let paths = if paths.is_empty() { vec![PathBuf::from(".")] } else { paths };
+            let files = plateau::batch::discover(&paths)?;
+            let typst_version = typst::find(typst_path.as_deref()).ok().map(|t| t.version);
+            let mut not_current = 0;
+            for file in &files {
+                let line = match plateau::study::load(file) {
+                    Err(d) => format!(
+                        "invalid  {}: {}",
+                        file.display(),
+                        d.0.first().map(ToString::to_string).unwrap_or_default()
+                    ),
+                    Ok(study) => {
+                        let dir = report::default_dir(file);
+                        match plateau::batch::status(&study, &dir, templates.as_deref(), typst_version.as_deref()) {
+                            plateau::batch::Status::Current => format!("current  {}", file.display()),
+                            plateau::batch::Status::Missing => {
+                                format!("missing  {} (no report in {})", file.display(), dir.display())
+                            }
+                            plateau::batch::Status::Stale(why) => {
+                                format!("stale    {}: {}", file.display(), why.join("; "))
+                            }
+                        }
+                    }
+                };
+                if !line.starts_with("current") {
+                    not_current += 1;
                 }
-                Err(report::ReportError::Typst(e)) => Err(Failure::Typesetter(e.to_string())),
-                Err(e) => Err(Failure::Other(e.to_string())),
+                println!("{line}");
+            }
+            if not_current == 0 {
+                Ok(())
+            } else {
+                Err(Failure::Silent(1))
             }
         }
         Command::Templates {
@@ -319,5 +422,123 @@ fn run(command: Command) -> Result<(), Failure> {
             print!("{}", plateau::study::schema::SCHEMA_TEXT);
             Ok(())
         }
+    }
+}
+
+/// What happened to one study of a batch.
+struct Outcome {
+    failure: Option<Failure>,
+    skipped: bool,
+    dir: PathBuf,
+}
+
+/// Reports every study, `jobs` at a time; one failure never stops the others. Prints one line
+/// per study as it finishes.
+fn run_batch(
+    files: &[PathBuf],
+    options: &report::Options,
+    force: bool,
+    jobs: Option<usize>,
+    quiet: bool,
+) -> Vec<Outcome> {
+    use std::sync::Mutex;
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    let workers = jobs
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+        .clamp(1, 64)
+        .min(files.len());
+    let next = AtomicUsize::new(0);
+    let slots: Mutex<Vec<Option<Outcome>>> = Mutex::new((0..files.len()).map(|_| None).collect());
+    let print = Mutex::new(());
+    std::thread::scope(|scope| {
+        for _ in 0..workers {
+            scope.spawn(|| {
+                loop {
+                    let i = next.fetch_add(1, Ordering::SeqCst);
+                    let Some(file) = files.get(i) else { break };
+                    let outcome = report_one(file, options, force);
+                    if let Ok(_guard) = print.lock() {
+                        match (&outcome.failure, outcome.skipped) {
+                            (None, true) if !quiet => println!("current  {}", file.display()),
+                            (None, false) if !quiet => {
+                                println!("ok       {} → {}", file.display(), outcome.dir.display())
+                            }
+                            (Some(f), _) => eprintln!("failed   {}: {}", file.display(), first_line(f)),
+                            _ => {}
+                        }
+                    }
+                    if let Ok(mut all) = slots.lock() {
+                        if let Some(slot) = all.get_mut(i) {
+                            *slot = Some(outcome);
+                        }
+                    }
+                }
+            });
+        }
+    });
+    slots
+        .into_inner()
+        .unwrap_or_default()
+        .into_iter()
+        .zip(files)
+        .map(|(o, file)| {
+            o.unwrap_or(Outcome {
+                failure: Some(Failure::Other("not processed".into())),
+                skipped: false,
+                dir: report::default_dir(file),
+            })
+        })
+        .collect()
+}
+
+fn first_line(f: &Failure) -> String {
+    match f {
+        Failure::Invalid(d) => {
+            let more = d.0.len().saturating_sub(1);
+            let first = d.0.first().map(ToString::to_string).unwrap_or_default();
+            if more > 0 {
+                format!("{first} (and {more} more)")
+            } else {
+                first
+            }
+        }
+        Failure::Usage(m) | Failure::Other(m) | Failure::Typesetter(m) => {
+            m.lines().next().unwrap_or_default().to_string()
+        }
+        Failure::Silent(_) => String::new(),
+    }
+}
+
+/// Reports one study unless its report is current (and `force` is not given).
+fn report_one(file: &std::path::Path, options: &report::Options, force: bool) -> Outcome {
+    let dir = options.out_dir.clone().unwrap_or_else(|| report::default_dir(file));
+    let fail = |f: Failure| Outcome {
+        failure: Some(f),
+        skipped: false,
+        dir: dir.clone(),
+    };
+    let evaluated = match pipeline::evaluate(file) {
+        Ok(e) => e,
+        Err(d) => return fail(Failure::Invalid(d)),
+    };
+    if !force {
+        let version = options.typst.as_ref().map_or("none", |t| t.version.as_str());
+        let now = plateau::batch::status(&evaluated.study, &dir, options.templates.as_deref(), Some(version));
+        if now == plateau::batch::Status::Current {
+            return Outcome {
+                failure: None,
+                skipped: true,
+                dir,
+            };
+        }
+    }
+    match report::write(&evaluated, options) {
+        Ok(written) => Outcome {
+            failure: None,
+            skipped: false,
+            dir: written,
+        },
+        Err(report::ReportError::Typst(e)) => fail(Failure::Typesetter(e.to_string())),
+        Err(e) => fail(Failure::Other(e.to_string())),
     }
 }

@@ -113,6 +113,7 @@ fn report_without_pdf_writes_the_documented_files_and_nothing_else() {
         "effects-assay.csv",
         "effects-resolution.csv",
         "factors.csv",
+        "inputs.json",
         "report.typ",
         "runs.csv",
         "section.typ",

@@ -203,6 +203,7 @@ fn the_report_folder_holds_the_pdf_sources_figures_tables_and_nothing_else() {
         "effects-assay.csv",
         "effects-resolution.csv",
         "factors.csv",
+        "inputs.json",
         "report.pdf",
         "report.typ",
         "runs.csv",
@@ -511,15 +512,14 @@ fn export_templates_writes_every_template_and_refuses_to_overwrite() {
         .map(|p| p.file_name().unwrap().to_string_lossy().to_string())
         .collect();
     got.sort();
-    assert_eq!(
-        got,
-        [
-            "README.md",
-            "report.typ.j2",
-            "runsheet.typ.j2",
-            "section.typ.j2"
-        ]
-    );
+    let mut expected: Vec<String> = plateau::report::render::BUILT_IN
+        .iter()
+        .map(|(name, _)| name.to_string())
+        .chain(std::iter::once("README.md".to_string()))
+        .collect();
+    expected.sort();
+    assert_eq!(got, expected);
+    assert!(got.contains(&"section.typ.j2".to_string()));
     assert_eq!(read(&target.join("section.typ.j2")), built_in_section());
     assert!(read(&target.join("README.md")).contains("section_depth"));
     // A second export changes nothing and names the file in the way.

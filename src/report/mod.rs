@@ -107,6 +107,10 @@ pub fn render_files(
         .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
     files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));
     files.extend(tables::csv_files(evaluated));
+    let record = crate::batch::inputs(&evaluated.study, options.templates.as_deref(), typst_version);
+    let record = serde_json::to_string_pretty(&record)
+        .map_err(|e| ReportError::write(Path::new(crate::batch::RECORD), e))?;
+    files.push((crate::batch::RECORD.to_string(), (record + "\n").into_bytes()));
     if let (Some(logo), Some(name)) = (
         &evaluated.study.report.logo,
         context::logo_file_name(&evaluated.study),

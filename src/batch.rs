@@ -1,0 +1,212 @@
+//! Many studies at once: finding study files in folders, recording what a report was made
+//! from, and telling whether a report is current, stale (and why) or missing.
+//!
+//! A report folder keeps `inputs.json`: the SHA-256 of the study file, its data file, its logo
+//! and every template used, with the plateau and typst versions. The same record computed now
+//! and compared field by field says exactly which input changed.
+
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+
+use crate::report::render::BUILT_IN;
+use crate::study::load::sha256_hex;
+use crate::study::{Diagnostics, Study};
+
+/// The record of what a report was made from.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct Inputs {
+    /// plateau version.
+    pub plateau: String,
+    /// typst version, or `none` for a report without PDF.
+    pub typst: String,
+    /// The study file (name) and its SHA-256.
+    pub study: (String, String),
+    /// The results file and its SHA-256, if any.
+    pub data: Option<(String, String)>,
+    /// The logo and its SHA-256, if any.
+    pub logo: Option<(String, String)>,
+    /// Each template (name, SHA-256, `built-in` or `lab`).
+    pub templates: Vec<(String, String, String)>,
+}
+
+/// Name of the record in the report folder.
+pub const RECORD: &str = "inputs.json";
+
+fn file_hash(path: &Path) -> String {
+    std::fs::read(path).map_or_else(|_| "unreadable".to_string(), |b| sha256_hex(&b))
+}
+
+/// The inputs of a study as they are now.
+pub fn inputs(study: &Study, templates: Option<&Path>, typst_version: Option<&str>) -> Inputs {
+    let dir = study.path.parent().unwrap_or_else(|| Path::new("."));
+    let name = |p: &str| p.to_string();
+    Inputs {
+        plateau: env!("CARGO_PKG_VERSION").to_string(),
+        typst: typst_version.unwrap_or("none").to_string(),
+        study: (
+            study
+                .path
+                .file_name()
+                .map_or_else(String::new, |n| n.to_string_lossy().to_string()),
+            study.sha256.clone(),
+        ),
+        data: study
+            .results
+            .as_ref()
+            .and_then(|r| r.file.as_ref())
+            .map(|f| (name(f), file_hash(&dir.join(f)))),
+        logo: study
+            .report
+            .logo
+            .as_ref()
+            .map(|f| (name(f), file_hash(&dir.join(f)))),
+        templates: BUILT_IN
+            .iter()
+            .map(|(n, text)| {
+                let lab = templates.map(|d| d.join(n)).filter(|p| p.is_file());
+                match lab {
+                    Some(p) => ((*n).to_string(), file_hash(&p), "lab".to_string()),
+                    None => ((*n).to_string(), sha256_hex(text.as_bytes()), "built-in".to_string()),
+                }
+            })
+            .collect(),
+    }
+}
+
+/// What differs between the recorded inputs and the current ones, in words.
+pub fn changes(recorded: &Inputs, now: &Inputs) -> Vec<String> {
+    let mut out = Vec::new();
+    if recorded.plateau != now.plateau {
+        out.push(format!("plateau {} → {}", recorded.plateau, now.plateau));
+    }
+    if recorded.typst != now.typst {
+        out.push(format!("typst {} → {}", recorded.typst, now.typst));
+    }
+    if recorded.study != now.study {
+        out.push(format!("study file {} changed", now.study.0));
+    }
+    if recorded.data != now.data {
+        out.push(match (&recorded.data, &now.data) {
+            (_, Some((n, _))) => format!("results file {n} changed"),
+            (Some((n, _)), None) => format!("results file {n} no longer used"),
+            _ => "results changed".to_string(),
+        });
+    }
+    if recorded.logo != now.logo {
+        out.push("logo changed".to_string());
+    }
+    for t in &now.templates {
+        if !recorded.templates.contains(t) {
+            out.push(format!("template {} changed ({})", t.0, t.2));
+        }
+    }
+    out
+}
+
+/// Where a study's report is.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Status {
+    /// Made from exactly the current inputs.
+    Current,
+    /// Made from other inputs: which ones changed.
+    Stale(Vec<String>),
+    /// No report (or no record of its inputs).
+    Missing,
+}
+
+/// The status of the report in `dir` for `study` as it is now.
+pub fn status(
+    study: &Study,
+    dir: &Path,
+    templates: Option<&Path>,
+    typst_version: Option<&str>,
+) -> Status {
+    let Ok(text) = std::fs::read_to_string(dir.join(RECORD)) else {
+        return Status::Missing;
+    };
+    let Ok(recorded) = serde_json::from_str::<Inputs>(&text) else {
+        return Status::Stale(vec!["the input record is unreadable".into()]);
+    };
+    let now = inputs(study, templates, typst_version.or(Some(recorded.typst.as_str())));
+    let mut why = changes(&recorded, &now);
+    if recorded.typst != "none" && !dir.join("report.pdf").is_file() {
+        why.push("report.pdf is missing".into());
+    }
+    if why.is_empty() {
+        Status::Current
+    } else {
+        Status::Stale(why)
+    }
+}
+
+/// Folders never searched for studies.
+fn skipped(dir: &Path) -> bool {
+    let name = dir
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_default();
+    name.starts_with('.') || name == "target" || name.ends_with("-report")
+}
+
+/// True for a YAML file that declares the study-file format (a top-level `schema:` key).
+pub fn is_study_file(path: &Path) -> bool {
+    let yaml = path
+        .extension()
+        .is_some_and(|e| e == "yaml" || e == "yml");
+    yaml && std::fs::read_to_string(path)
+        .map(|t| t.lines().any(|l| l.starts_with("schema:")))
+        .unwrap_or(false)
+}
+
+/// The study files named by `paths`: files as given, folders searched recursively (sorted,
+/// report folders and hidden folders skipped).
+pub fn discover(paths: &[PathBuf]) -> Result<Vec<PathBuf>, Diagnostics> {
+    let mut out = Vec::new();
+    for p in paths {
+        if p.is_dir() {
+            walk(p, &mut out);
+        } else {
+            out.push(p.clone());
+        }
+    }
+    Ok(out)
+}
+
+fn walk(dir: &Path, out: &mut Vec<PathBuf>) {
+    let Ok(entries) = std::fs::read_dir(dir) else { return };
+    let mut entries: Vec<PathBuf> = entries.filter_map(|e| e.ok().map(|e| e.path())).collect();
+    entries.sort();
+    for path in entries {
+        if path.is_dir() {
+            if !skipped(&path) {
+                walk(&path, out);
+            }
+        } else if is_study_file(&path) {
+            out.push(path);
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_folder_search_finds_study_files_and_skips_report_folders() {
+        let dir = tempfile::tempdir().unwrap();
+        let root = dir.path();
+        std::fs::create_dir_all(root.join("a/b")).unwrap();
+        std::fs::create_dir_all(root.join("a/x-report")).unwrap();
+        std::fs::write(root.join("a/one.yaml"), "schema: 1\n").unwrap();
+        std::fs::write(root.join("a/b/two.yml"), "# c\nschema: 1\n").unwrap();
+        std::fs::write(root.join("a/x-report/three.yaml"), "schema: 1\n").unwrap();
+        std::fs::write(root.join("a/other.yaml"), "name: not a study\n").unwrap();
+        let found = discover(&[root.to_path_buf()]).unwrap();
+        let names: Vec<String> = found
+            .iter()
+            .map(|p| p.file_name().unwrap().to_string_lossy().to_string())
+            .collect();
+        assert_eq!(names, ["two.yml", "one.yaml"]);
+    }
+}

@@ -1,0 +1,220 @@
+//! The typeset verification record: the template context (every number formatted here, so
+//! the template only lays out), and the folder with `verification.pdf`, `.typ` and `.json`.
+//!
+//! The folder is assembled under a temporary name beside its destination and renamed into
+//! place only when every file (the PDF included) is complete, as the report folder is.
+
+use std::path::{Path, PathBuf};
+
+use serde::Serialize;
+use serde_json::Value;
+
+use super::{CaseKind, VerificationRecord, VerifyError};
+use crate::report::{render, typst};
+
+/// The record's PDF file name.
+pub const PDF: &str = "verification.pdf";
+/// The record's Typst source file name.
+pub const TYP: &str = "verification.typ";
+/// The record as data.
+pub const JSON: &str = "verification.json";
+
+#[derive(Serialize)]
+struct Context {
+    tool: String,
+    version: String,
+    binary: String,
+    binary_sha256: String,
+    platform: String,
+    typst_version: String,
+    date: String,
+    date_source: String,
+    passed: bool,
+    summary: super::Summary,
+    cases: Vec<CaseContext>,
+}
+
+#[derive(Serialize)]
+struct CaseContext {
+    id: String,
+    title: String,
+    kind: String,
+    source: String,
+    pass: bool,
+    error: Option<String>,
+    passed: usize,
+    checks: Vec<CheckContext>,
+}
+
+#[derive(Serialize)]
+struct CheckContext {
+    quantity: String,
+    expected: String,
+    computed: String,
+    difference: String,
+    tolerance: String,
+    pass: bool,
+    note: String,
+}
+
+/// A value as the record prints it: numbers with up to 12 significant digits (enough to show
+/// a difference at the tolerances used), other values as JSON.
+pub fn format_value(v: &Value) -> String {
+    match v {
+        Value::Number(n) => n.as_f64().map_or_else(|| n.to_string(), format_number),
+        Value::String(s) => s.clone(),
+        other => other.to_string(),
+    }
+}
+
+/// A number with up to 12 significant digits, plain for moderate magnitudes and in
+/// scientific notation otherwise.
+pub fn format_number(x: f64) -> String {
+    if x == 0.0 {
+        return "0".into();
+    }
+    if !x.is_finite() {
+        return x.to_string();
+    }
+    let mag = x.abs().log10().floor() as i32;
+    if (-4..12).contains(&mag) {
+        let decimals = (11 - mag).clamp(0, 16) as usize;
+        let s = format!("{x:.decimals$}");
+        let s = if s.contains('.') { s.trim_end_matches('0').trim_end_matches('.').to_string() } else { s };
+        if s == "-0" { "0".into() } else { s }
+    } else {
+        format!("{x:.11e}")
+    }
+}
+
+fn context(record: &VerificationRecord) -> Context {
+    Context {
+        tool: record.tool.clone(),
+        version: record.version.clone(),
+        binary: record.binary.clone().unwrap_or_else(|| "(not available)".into()),
+        binary_sha256: record.binary_sha256.clone().unwrap_or_else(|| "(not available)".into()),
+        platform: format!("{} / {}", record.platform.os, record.platform.arch),
+        typst_version: record.typst_version.clone().unwrap_or_else(|| "(none)".into()),
+        date: record.date.clone(),
+        date_source: record.date_source.clone(),
+        passed: record.passed(),
+        summary: record.summary.clone(),
+        cases: record
+            .cases
+            .iter()
+            .map(|c| CaseContext {
+                id: c.id.clone(),
+                title: c.title.clone(),
+                kind: match c.kind {
+                    CaseKind::Published => "published",
+                    CaseKind::Library => "reference library",
+                    CaseKind::Hand => "by hand from a published formula",
+                }
+                .into(),
+                source: c.source.clone(),
+                pass: c.pass,
+                error: c.error.clone(),
+                passed: c.checks.iter().filter(|k| k.pass).count(),
+                checks: c
+                    .checks
+                    .iter()
+                    .map(|k| CheckContext {
+                        quantity: k.quantity.clone(),
+                        expected: format_value(&k.expected),
+                        computed: k.computed.as_ref().map_or_else(|| "(none)".into(), format_value),
+                        difference: k.difference.map_or_else(String::new, |d| format!("{d:.2e}")),
+                        tolerance: format!("{:.0e}", k.tolerance),
+                        pass: k.pass,
+                        note: k.note.clone().unwrap_or_default(),
+                    })
+                    .collect(),
+            })
+            .collect(),
+    }
+}
+
+/// The record's Typst source.
+pub fn typst_source(record: &VerificationRecord) -> Result<String, VerifyError> {
+    let env = render::environment(None);
+    let value = minijinja::Value::from(minijinja::value::Serde(&context(record)));
+    Ok(render::render(&env, "verify.typ.j2", value)?)
+}
+
+/// Writes `dir/verification.typ`, `dir/verification.json` and, with a typesetter,
+/// `dir/verification.pdf`; returns `dir`. The PDF's creation date is the record's date.
+pub fn write(
+    record: &VerificationRecord,
+    dir: &Path,
+    typst: Option<&typst::Typst>,
+) -> Result<PathBuf, VerifyError> {
+    let source = typst_source(record)?;
+    let json = serde_json::to_string_pretty(record).map_err(|e| VerifyError::write(Path::new(JSON), e))? + "\n";
+    let parent = dir
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|| PathBuf::from("."));
+    let name = dir
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_else(|| "verification".into());
+    std::fs::create_dir_all(&parent).map_err(|e| VerifyError::write(&parent, e))?;
+    let staging = parent.join(format!(".{name}.partial-{}", std::process::id()));
+    let result = (|| {
+        if staging.exists() {
+            std::fs::remove_dir_all(&staging).map_err(|e| VerifyError::write(&staging, e))?;
+        }
+        std::fs::create_dir(&staging).map_err(|e| VerifyError::write(&staging, e))?;
+        for (file, text) in [(TYP, &source), (JSON, &json)] {
+            let path = staging.join(file);
+            std::fs::write(&path, text).map_err(|e| VerifyError::write(&path, e))?;
+        }
+        if let Some(typst) = typst {
+            let packages = parent.join(format!(".{name}.no-packages-{}", std::process::id()));
+            std::fs::create_dir_all(&packages).map_err(|e| VerifyError::write(&packages, e))?;
+            let stamp = typst::unix_midnight(&record.date).unwrap_or(0);
+            let compiled = typst.compile(&staging, TYP, PDF, stamp, &packages);
+            let _ = std::fs::remove_dir_all(&packages);
+            compiled?;
+        }
+        replace_dir(&staging, dir)
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_dir_all(&staging);
+    }
+    result.map(|()| dir.to_path_buf())
+}
+
+/// Moves `staging` to `dest`, replacing an existing record only after the new one is complete.
+fn replace_dir(staging: &Path, dest: &Path) -> Result<(), VerifyError> {
+    if dest.exists() {
+        let old = dest.with_file_name(format!(
+            ".{}.old-{}",
+            dest.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default(),
+            std::process::id()
+        ));
+        std::fs::rename(dest, &old).map_err(|e| VerifyError::write(dest, e))?;
+        if let Err(e) = std::fs::rename(staging, dest) {
+            let _ = std::fs::rename(&old, dest);
+            return Err(VerifyError::write(dest, e));
+        }
+        let _ = std::fs::remove_dir_all(&old);
+        Ok(())
+    } else {
+        std::fs::rename(staging, dest).map_err(|e| VerifyError::write(dest, e))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_print_with_twelve_significant_digits() {
+        assert_eq!(format_number(23.0), "23");
+        assert_eq!(format_number(-5.0), "-5");
+        assert_eq!(format_number(0.565685424949238), "0.565685424949");
+        assert_eq!(format_number(1.25e-7), "1.25000000000e-7");
+        assert_eq!(format_number(0.0), "0");
+    }
+}
