@@ -38,13 +38,24 @@ fn git(dir: &Path, args: &[&str]) {
     let out = Command::new("git")
         .arg("-C")
         .arg(dir)
-        .args(["-c", "user.name=Test", "-c", "user.email=test@example.invalid", "-c", "commit.gpgsign=false"])
+        .args([
+            "-c",
+            "user.name=Test",
+            "-c",
+            "user.email=test@example.invalid",
+            "-c",
+            "commit.gpgsign=false",
+        ])
         .args(args)
         .env("GIT_CONFIG_GLOBAL", "/dev/null")
         .env("GIT_CONFIG_NOSYSTEM", "1")
         .output()
         .expect("git runs");
-    assert!(out.status.success(), "git {args:?}: {}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "git {args:?}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
 }
 
 /// A repository whose first commit has the original results and whose second has the re-run.
@@ -54,7 +65,10 @@ fn repository(root: &Path) -> PathBuf {
     git(root, &["add", "."]);
     git(root, &["commit", "-q", "-m", "first run"]);
     version(&root.join("studies/hplc"), "results-rerun.csv");
-    git(root, &["commit", "-q", "-a", "-m", "re-run of the pH-high runs"]);
+    git(
+        root,
+        &["commit", "-q", "-a", "-m", "re-run of the pH-high runs"],
+    );
     study
 }
 
@@ -76,7 +90,9 @@ fn assert_rerun_changes(d: &StudyDiff) {
             ("8", "assay", 98.4, 98.9)
         ]
     );
-    assert!(d.inputs.factors.is_empty() && d.inputs.design.is_empty() && d.inputs.acceptance.is_empty());
+    assert!(
+        d.inputs.factors.is_empty() && d.inputs.design.is_empty() && d.inputs.acceptance.is_empty()
+    );
 
     // The changed effect: only pH on the assay, −2.30 → −1.80 (by hand, module comment).
     assert_eq!(d.outputs.effects.len(), 1, "{:?}", d.outputs.effects);
@@ -92,7 +108,15 @@ fn assert_rerun_changes(d: &StudyDiff) {
         .outputs
         .verdicts
         .iter()
-        .map(|v| (v.response.as_str(), v.effect.as_deref(), v.verdict.as_str(), v.old, v.new))
+        .map(|v| {
+            (
+                v.response.as_str(),
+                v.effect.as_deref(),
+                v.verdict.as_str(),
+                v.old,
+                v.new,
+            )
+        })
         .collect();
     assert_eq!(
         flips,
@@ -112,14 +136,19 @@ fn assert_rerun_changes(d: &StudyDiff) {
         c.removed
     );
     assert!(
-        c.added
-            .iter()
-            .any(|s| s.starts_with("Assay: no main effect exceeded the acceptance criterion")
-                && s.contains("Mobile-phase pH with \u{2212}1.80")),
+        c.added.iter().any(|s| s
+            .starts_with("Assay: no main effect exceeded the acceptance criterion")
+            && s.contains("Mobile-phase pH with \u{2212}1.80")),
         "{:?}",
         c.added
     );
-    assert!(c.added.iter().any(|s| s.contains("the method is robust for these ranges")), "{:?}", c.added);
+    assert!(
+        c.added
+            .iter()
+            .any(|s| s.contains("the method is robust for these ranges")),
+        "{:?}",
+        c.added
+    );
     assert!(!d.is_empty());
 }
 
@@ -136,7 +165,10 @@ fn a_rerun_lists_the_changed_effect_the_flipped_verdict_and_the_changed_sentence
     assert!(text.contains("\u{2212}2.3 (\u{2212}2.30461 %)"), "{text}");
     assert!(text.contains("\u{2212}1.8 (\u{2212}1.80361 %)"), "{text}");
     assert!(text.contains("verdicts that flipped"), "{text}");
-    assert!(text.contains("    - Assay: Mobile-phase pH had a relevant effect"), "{text}");
+    assert!(
+        text.contains("    - Assay: Mobile-phase pH had a relevant effect"),
+        "{text}"
+    );
     assert!(!text.contains("no changes"), "{text}");
 }
 
@@ -162,7 +194,11 @@ fn identical_files_give_an_empty_diff_that_says_no_changes() {
     let d = diff_of(&a, &b);
     assert!(d.is_empty(), "{}", diff::text(&d));
     assert_eq!(d.old.sha256, d.new.sha256);
-    assert!(diff::text(&d).contains("\nno changes\n"), "{}", diff::text(&d));
+    assert!(
+        diff::text(&d).contains("\nno changes\n"),
+        "{}",
+        diff::text(&d)
+    );
 }
 
 #[test]
@@ -172,7 +208,10 @@ fn a_changed_factor_range_and_limit_are_listed_as_inputs() {
     let new = version(&dir.path().join("new"), "results.csv");
     let text = std::fs::read_to_string(&new).unwrap();
     let text = text
-        .replace("    nominal: 35\n    delta: 2\n", "    nominal: 35\n    delta: 3\n")
+        .replace(
+            "    nominal: 35\n    delta: 2\n",
+            "    nominal: 35\n    delta: 3\n",
+        )
         .replace("effect-limit: 2.0", "effect-limit: 2.5");
     std::fs::write(&new, text).unwrap();
     let d = diff_of(&old, &new);
@@ -180,7 +219,14 @@ fn a_changed_factor_range_and_limit_are_listed_as_inputs() {
         .inputs
         .factors
         .iter()
-        .map(|c| (c.item.as_str(), c.field.as_str(), c.old.to_string(), c.new.to_string()))
+        .map(|c| {
+            (
+                c.item.as_str(),
+                c.field.as_str(),
+                c.old.to_string(),
+                c.new.to_string(),
+            )
+        })
         .collect();
     assert_eq!(
         factor,
@@ -189,12 +235,30 @@ fn a_changed_factor_range_and_limit_are_listed_as_inputs() {
             ("temp", "high", "37.0".to_string(), "38.0".to_string())
         ]
     );
-    let limit = d.inputs.acceptance.iter().find(|c| c.field == "effect-limit").unwrap();
-    assert_eq!((limit.old.as_f64(), limit.new.as_f64()), (Some(2.0), Some(2.5)));
+    let limit = d
+        .inputs
+        .acceptance
+        .iter()
+        .find(|c| c.field == "effect-limit")
+        .unwrap();
+    assert_eq!(
+        (limit.old.as_f64(), limit.new.as_f64()),
+        (Some(2.0), Some(2.5))
+    );
     // The same data with a wider limit: −2.30 % is no longer relevant.
-    assert!(d.outputs.verdicts.iter().any(|v| v.verdict == "robust" && v.new == Some(true)));
+    assert!(
+        d.outputs
+            .verdicts
+            .iter()
+            .any(|v| v.verdict == "robust" && v.new == Some(true))
+    );
     // The limit is also a criterion number.
-    assert!(d.outputs.numbers.iter().any(|n| n.quantity == "limit" && n.new == Some(2.5)));
+    assert!(
+        d.outputs
+            .numbers
+            .iter()
+            .any(|n| n.quantity == "limit" && n.new == Some(2.5))
+    );
     assert!(d.inputs.results.is_empty());
 }
 
@@ -234,7 +298,10 @@ fn the_working_file_against_head_is_empty_after_a_commit() {
     let dir = tempfile::tempdir().unwrap();
     let study = repository(dir.path());
     let rev = diff::load_revision(&study, "HEAD").unwrap();
-    let d = diff::compare(&diff::evaluate_revision(&rev).unwrap(), &pipeline::evaluate(&study).unwrap());
+    let d = diff::compare(
+        &diff::evaluate_revision(&rev).unwrap(),
+        &pipeline::evaluate(&study).unwrap(),
+    );
     assert!(d.is_empty(), "{}", diff::text(&d));
     assert_eq!(d.old.sha256, d.new.sha256);
 }
@@ -246,7 +313,10 @@ fn an_unknown_revision_is_a_clear_error() {
     let e = diff::load_revision(&study, "v9.9-no-such-tag").unwrap_err();
     assert!(matches!(e, DiffError::UnknownRevision { .. }), "{e:?}");
     let message = e.to_string();
-    assert!(message.contains("unknown revision `v9.9-no-such-tag`"), "{message}");
+    assert!(
+        message.contains("unknown revision `v9.9-no-such-tag`"),
+        "{message}"
+    );
     assert!(message.contains("HEAD~1"), "{message}");
 }
 
@@ -269,7 +339,10 @@ fn a_study_not_in_the_revision_is_a_clear_error_naming_the_file() {
     let e = diff::load_revision(&other, "HEAD~1").unwrap_err();
     assert!(matches!(e, DiffError::NotInRevision { .. }), "{e:?}");
     let message = e.to_string();
-    assert!(message.contains("studies/second/study.yaml is not a file in revision `HEAD~1`"), "{message}");
+    assert!(
+        message.contains("studies/second/study.yaml is not a file in revision `HEAD~1`"),
+        "{message}"
+    );
     // The first study is there.
     assert!(diff::load_revision(&study, "HEAD~1").is_ok());
 }
@@ -284,7 +357,10 @@ fn a_results_file_not_in_the_revision_is_a_clear_error_naming_it() {
     git(dir.path(), &["commit", "-q", "-m", "plan"]);
     let e = diff::load_revision(&study, "HEAD").unwrap_err();
     let message = e.to_string();
-    assert!(message.contains("s/results.csv is not a file in revision `HEAD`"), "{message}");
+    assert!(
+        message.contains("s/results.csv is not a file in revision `HEAD`"),
+        "{message}"
+    );
 }
 
 #[test]
@@ -293,7 +369,10 @@ fn a_study_outside_a_repository_is_a_clear_error() {
     let study = version(dir.path(), "results.csv");
     let e = diff::load_revision(&study, "HEAD").unwrap_err();
     assert!(matches!(e, DiffError::NotARepository { .. }), "{e:?}");
-    assert!(e.to_string().contains("is not inside a git repository"), "{e}");
+    assert!(
+        e.to_string().contains("is not inside a git repository"),
+        "{e}"
+    );
 }
 
 #[test]
@@ -302,7 +381,14 @@ fn problems_of_an_old_revision_name_the_revision_not_the_copy() {
     git(dir.path(), &["init", "-q"]);
     let study = version(&dir.path().join("s"), "results.csv");
     let good = std::fs::read_to_string(&study).unwrap();
-    std::fs::write(&study, good.replace("delta: 0.1\n    justification: Buffer", "delta: -0.1\n    justification: Buffer")).unwrap();
+    std::fs::write(
+        &study,
+        good.replace(
+            "delta: 0.1\n    justification: Buffer",
+            "delta: -0.1\n    justification: Buffer",
+        ),
+    )
+    .unwrap();
     git(dir.path(), &["add", "."]);
     git(dir.path(), &["commit", "-q", "-m", "broken"]);
     std::fs::write(&study, good).unwrap();
@@ -324,14 +410,27 @@ fn the_change_summary_pdf_shows_the_flipped_verdict() {
     diff::write_pdf(&d, &typst, &out).unwrap();
     let text = common::pdf_text(&out);
     assert!(text.contains("RS-2026-014"), "{text}");
-    assert!(text.contains(&d.old.sha256) && text.contains(&d.new.sha256), "{text}");
+    assert!(
+        text.contains(&d.old.sha256) && text.contains(&d.new.sha256),
+        "{text}"
+    );
     let verdict_line = text
         .lines()
         .find(|l| l.contains("relevant") && l.contains("ph"))
         .unwrap_or_else(|| panic!("no verdict row:\n{text}"));
-    assert!(verdict_line.contains("yes") && verdict_line.contains("no"), "{verdict_line}");
-    assert!(text.lines().any(|l| l.contains("robust") && l.contains("no") && l.contains("yes")), "{text}");
-    assert!(text.contains("Reviewed by") && text.contains("Approved by"), "{text}");
+    assert!(
+        verdict_line.contains("yes") && verdict_line.contains("no"),
+        "{verdict_line}"
+    );
+    assert!(
+        text.lines()
+            .any(|l| l.contains("robust") && l.contains("no") && l.contains("yes")),
+        "{text}"
+    );
+    assert!(
+        text.contains("Reviewed by") && text.contains("Approved by"),
+        "{text}"
+    );
     assert!(text.contains("qualified staff"), "{text}");
     // No staging folder is left behind.
     let left: Vec<_> = std::fs::read_dir(dir.path())

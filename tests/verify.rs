@@ -42,13 +42,20 @@ fn every_reference_case_passes_on_this_machine() {
         panic!("{e}");
     }
     assert_eq!(record.summary.failed, 0);
-    assert!(record.summary.checks > 100, "{} checks", record.summary.checks);
+    assert!(
+        record.summary.checks > 100,
+        "{} checks",
+        record.summary.checks
+    );
 }
 
 #[test]
 fn every_case_file_on_disk_is_embedded_in_the_binary() {
     let on_disk: Vec<String> = disk_cases().into_iter().map(|(n, _)| n).collect();
-    let embedded: Vec<String> = verify::EMBEDDED.iter().map(|(n, _)| n.to_string()).collect();
+    let embedded: Vec<String> = verify::EMBEDDED
+        .iter()
+        .map(|(n, _)| n.to_string())
+        .collect();
     assert_eq!(on_disk, embedded, "add new case files to verify::EMBEDDED");
     for (name, text) in verify::EMBEDDED {
         let disk = std::fs::read_to_string(cases_dir().join(name)).unwrap();
@@ -65,7 +72,11 @@ fn every_case_names_its_source_and_its_id_is_its_file_name() {
         );
         assert_eq!(format!("{}.yaml", case.case.id), name);
         for e in &case.expect {
-            assert!(e.note.as_deref().is_some_and(|n| !n.is_empty()), "{name}: {} has no note", e.quantity);
+            assert!(
+                e.note.as_deref().is_some_and(|n| !n.is_empty()),
+                "{name}: {} has no note",
+                e.quantity
+            );
         }
     }
 }
@@ -76,14 +87,19 @@ fn a_case_without_a_source_is_an_error() {
     let start = text.find("  source:").unwrap();
     let end = start + text[start..].find('\n').unwrap() + 1;
     let stripped = format!("{}{}", &text[..start], &text[end..]);
-    let err = verify::parse_case("bhh-pilot-plant.yaml", &stripped).unwrap_err().to_string();
+    let err = verify::parse_case("bhh-pilot-plant.yaml", &stripped)
+        .unwrap_err()
+        .to_string();
     assert!(err.contains("names no source"), "{err}");
 }
 
 #[test]
 fn a_corrupted_expected_value_fails_that_case_and_names_it() {
     let mut cases: Vec<CaseFile> = disk_cases().into_iter().map(|(_, c)| c).collect();
-    let victim = cases.iter_mut().find(|c| c.case.id == "bhh-pilot-plant").unwrap();
+    let victim = cases
+        .iter_mut()
+        .find(|c| c.case.id == "bhh-pilot-plant")
+        .unwrap();
     let e = victim
         .expect
         .iter_mut()
@@ -91,18 +107,30 @@ fn a_corrupted_expected_value_fails_that_case_and_names_it() {
         .unwrap();
     e.value = serde_json::json!(23.5);
     let record = verify::run_cases(&cases, &options());
-    let failed: Vec<&str> = record.cases.iter().filter(|c| !c.pass).map(|c| c.id.as_str()).collect();
+    let failed: Vec<&str> = record
+        .cases
+        .iter()
+        .filter(|c| !c.pass)
+        .map(|c| c.id.as_str())
+        .collect();
     assert_eq!(failed, ["bhh-pilot-plant"]);
     assert_eq!(record.summary.failed, 1);
     let err = record.outcome().unwrap_err().to_string();
     assert!(err.contains("bhh-pilot-plant"), "{err}");
-    assert!(err.contains("responses[0].effects[label=T].effect"), "{err}");
+    assert!(
+        err.contains("responses[0].effects[label=T].effect"),
+        "{err}"
+    );
     assert!(err.contains("23.5"), "{err}");
 }
 
 #[test]
 fn a_quantity_the_analysis_lacks_fails_instead_of_passing() {
-    let mut cases: Vec<CaseFile> = disk_cases().into_iter().map(|(_, c)| c).filter(|c| c.case.id == "fraction-2-3-1").collect();
+    let mut cases: Vec<CaseFile> = disk_cases()
+        .into_iter()
+        .map(|(_, c)| c)
+        .filter(|c| c.case.id == "fraction-2-3-1")
+        .collect();
     cases[0].expect[0].quantity = "design.no_such_field".into();
     let record = verify::run_cases(&cases, &options());
     assert!(!record.passed());

@@ -11,7 +11,7 @@ use serde_json::Value;
 
 use super::{
     AddedRemoved, Change, EffectChange, EffectValue, Inputs, NumberChange, Outputs,
-    RELATIVE_TOLERANCE, ResultChange, SentenceChanges, StudyDiff, Version, VerdictFlip,
+    RELATIVE_TOLERANCE, ResultChange, SentenceChanges, StudyDiff, VerdictFlip, Version,
 };
 use crate::analysis::{Effect, ResponseAnalysis};
 use crate::pipeline::Evaluated;
@@ -151,7 +151,10 @@ fn design_fields(e: &Evaluated) -> Fields {
         field("runs", json(&d.runs)),
         field("two-level runs", json(&d.two_level_runs)),
         field("center points", json(&d.center_points)),
-        field("nominal runs", json(&format!("{:?}", r.nominal_runs).to_lowercase())),
+        field(
+            "nominal runs",
+            json(&format!("{:?}", r.nominal_runs).to_lowercase()),
+        ),
         field("replicates", json(&d.replicates)),
         field("seed", json(&d.seed)),
         field("generators", json(&d.generators)),
@@ -210,7 +213,12 @@ fn acceptance_fields(s: &Study, index: usize) -> Fields {
         out.push((nth("effect-limit unit", k), json(&l.unit)));
         out.push((nth("effect-limit basis", k), json(&l.basis)));
     }
-    for (k, rule) in s.significance.iter().filter(|r| r.response == index).enumerate() {
+    for (k, rule) in s
+        .significance
+        .iter()
+        .filter(|r| r.response == index)
+        .enumerate()
+    {
         let terms: Vec<&str> = rule.terms.iter().map(|(t, _)| t.as_str()).collect();
         out.push((nth("significance method", k), json(&rule.method)));
         out.push((nth("alpha", k), json(&rule.alpha)));
@@ -220,7 +228,12 @@ fn acceptance_fields(s: &Study, index: usize) -> Fields {
         out.push((nth("determinations", k), json(&rule.determinations)));
         out.push((nth("negligible terms", k), json(&terms)));
     }
-    for (k, lim) in s.suitability.iter().filter(|l| l.response == index).enumerate() {
+    for (k, lim) in s
+        .suitability
+        .iter()
+        .filter(|l| l.response == index)
+        .enumerate()
+    {
         out.push((nth("min", k), json(&lim.min)));
         out.push((nth("max", k), json(&lim.max)));
     }
@@ -243,8 +256,11 @@ fn inputs(old: &Evaluated, new: &Evaluated) -> Inputs {
     out.factors_added_removed = added_removed(&ids(os), &ids(ns));
     for nf in &ns.factors {
         if let Some(of) = os.factors.iter().find(|f| f.id == nf.id) {
-            out.factors
-                .extend(changed_fields(&nf.id, &factor_fields(of), &factor_fields(nf)));
+            out.factors.extend(changed_fields(
+                &nf.id,
+                &factor_fields(of),
+                &factor_fields(nf),
+            ));
         }
     }
 
@@ -271,8 +287,11 @@ fn inputs(old: &Evaluated, new: &Evaluated) -> Inputs {
     for (ni, nr) in ns.responses.iter().enumerate() {
         if let Some(oi) = response_index(os, &nr.id) {
             let or = &os.responses[oi];
-            out.responses
-                .extend(changed_fields(&nr.id, &response_fields(or), &response_fields(nr)));
+            out.responses.extend(changed_fields(
+                &nr.id,
+                &response_fields(or),
+                &response_fields(nr),
+            ));
             out.acceptance.extend(changed_fields(
                 &nr.id,
                 &acceptance_fields(os, oi),
@@ -338,7 +357,10 @@ fn run_sorted(mut ids: Vec<String>) -> Vec<String> {
 
 /// Measured values compared exactly (they are data as written), NaN equal to NaN.
 fn same_values(a: &[f64], b: &[f64]) -> bool {
-    a.len() == b.len() && a.iter().zip(b).all(|(x, y)| x == y || (x.is_nan() && y.is_nan()))
+    a.len() == b.len()
+        && a.iter()
+            .zip(b)
+            .all(|(x, y)| x == y || (x.is_nan() && y.is_nan()))
 }
 
 /// True when `a` and `b` agree within [`RELATIVE_TOLERANCE`] of max(|a|, |b|, `scale`).
@@ -353,7 +375,10 @@ pub(super) fn same_number(a: f64, b: f64, scale: f64) -> bool {
     if !a.is_finite() || !b.is_finite() {
         return a == b;
     }
-    let size = a.abs().max(b.abs()).max(if scale.is_finite() { scale.abs() } else { 0.0 });
+    let size = a
+        .abs()
+        .max(b.abs())
+        .max(if scale.is_finite() { scale.abs() } else { 0.0 });
     (a - b).abs() <= RELATIVE_TOLERANCE * size
 }
 
@@ -400,7 +425,9 @@ fn response_outputs(or: &ResponseAnalysis, nr: &ResponseAnalysis, out: &mut Outp
         match or.effects.iter().find(|e| e.label == ne.label) {
             Some(oe) => {
                 // Percent effects live on a scale of 100 (% of the reference).
-                if !same_number(oe.effect, ne.effect, scale) || !same_number(oe.percent, ne.percent, 100.0) {
+                if !same_number(oe.effect, ne.effect, scale)
+                    || !same_number(oe.percent, ne.percent, 100.0)
+                {
                     out.effects.push(EffectChange {
                         response: nr.id.clone(),
                         label: ne.label.clone(),
@@ -409,7 +436,12 @@ fn response_outputs(or: &ResponseAnalysis, nr: &ResponseAnalysis, out: &mut Outp
                     });
                 }
                 effect_flips.extend(flip(Some(&ne.label), "relevant", oe.relevant, ne.relevant));
-                effect_flips.extend(flip(Some(&ne.label), "significant", oe.significant, ne.significant));
+                effect_flips.extend(flip(
+                    Some(&ne.label),
+                    "significant",
+                    oe.significant,
+                    ne.significant,
+                ));
             }
             None => out.effects.push(EffectChange {
                 response: nr.id.clone(),
@@ -419,7 +451,11 @@ fn response_outputs(or: &ResponseAnalysis, nr: &ResponseAnalysis, out: &mut Outp
             }),
         }
     }
-    for oe in or.effects.iter().filter(|oe| !nr.effects.iter().any(|e| e.label == oe.label)) {
+    for oe in or
+        .effects
+        .iter()
+        .filter(|oe| !nr.effects.iter().any(|e| e.label == oe.label))
+    {
         out.effects.push(EffectChange {
             response: nr.id.clone(),
             label: oe.label.clone(),
@@ -488,13 +524,13 @@ fn response_outputs(or: &ResponseAnalysis, nr: &ResponseAnalysis, out: &mut Outp
 /// Sentences of `old` missing from `new` and of `new` missing from `old`, as multisets: a
 /// sentence that appears twice in one version and once in the other is listed once.
 pub(super) fn sentence_changes(old: &[String], new: &[String]) -> SentenceChanges {
-    let count = |list: &[String]| {
+    fn count(list: &[String]) -> BTreeMap<&str, usize> {
         let mut m: BTreeMap<&str, usize> = BTreeMap::new();
         for s in list {
             *m.entry(s.as_str()).or_default() += 1;
         }
         m
-    };
+    }
     let only = |list: &[String], other: &[String]| -> Vec<String> {
         let mut budget = count(other);
         let mut out = Vec::new();
@@ -582,13 +618,19 @@ mod tests {
 
     #[test]
     fn added_and_removed_ids_keep_file_order() {
-        let a = added_removed(&strings(&["temp", "ph", "flow"]), &strings(&["flow", "lot", "temp"]));
+        let a = added_removed(
+            &strings(&["temp", "ph", "flow"]),
+            &strings(&["flow", "lot", "temp"]),
+        );
         assert_eq!(a.added, strings(&["lot"]));
         assert_eq!(a.removed, strings(&["ph"]));
     }
 
     #[test]
     fn numeric_run_ids_sort_as_numbers() {
-        assert_eq!(run_sorted(strings(&["10", "2", "1"])), strings(&["1", "2", "10"]));
+        assert_eq!(
+            run_sorted(strings(&["10", "2", "1"])),
+            strings(&["1", "2", "10"])
+        );
     }
 }

@@ -22,7 +22,9 @@ pub enum DiffError {
         cause: String,
     },
     /// The study's folder does not exist.
-    #[error("cannot find the folder of the study file {path} ({cause}); expected an existing folder inside a git repository")]
+    #[error(
+        "cannot find the folder of the study file {path} ({cause}); expected an existing folder inside a git repository"
+    )]
     NoFolder {
         /// The study file as given.
         path: String,
@@ -30,13 +32,17 @@ pub enum DiffError {
         cause: String,
     },
     /// The study is not inside a git repository.
-    #[error("{path} is not inside a git repository; --rev needs a study file in a git working tree")]
+    #[error(
+        "{path} is not inside a git repository; --rev needs a study file in a git working tree"
+    )]
     NotARepository {
         /// The study file as given.
         path: String,
     },
     /// The revision is not one git knows.
-    #[error("unknown revision `{rev}` in the repository {repo}; expected a commit, branch or tag of that repository, or an expression such as HEAD~1")]
+    #[error(
+        "unknown revision `{rev}` in the repository {repo}; expected a commit, branch or tag of that repository, or an expression such as HEAD~1"
+    )]
     UnknownRevision {
         /// The revision as given.
         rev: String,
@@ -44,13 +50,17 @@ pub enum DiffError {
         repo: String,
     },
     /// The revision text cannot be a revision (it would be read as an option).
-    #[error("`{rev}` is not a revision name; expected a commit, branch, tag or an expression such as HEAD~1")]
+    #[error(
+        "`{rev}` is not a revision name; expected a commit, branch, tag or an expression such as HEAD~1"
+    )]
     BadRevision {
         /// The revision as given.
         rev: String,
     },
     /// The file is not in the revision (or is a folder there).
-    #[error("{file} is not a file in revision `{rev}` ({commit}); expected a file committed at that revision (`git log -- {file}` lists the commits that have it)")]
+    #[error(
+        "{file} is not a file in revision `{rev}` ({commit}); expected a file committed at that revision (`git log -- {file}` lists the commits that have it)"
+    )]
     NotInRevision {
         /// The file, relative to the repository root.
         file: String,
@@ -60,7 +70,9 @@ pub enum DiffError {
         commit: String,
     },
     /// A file named by the study lies outside the repository.
-    #[error("{file} (named by {study}) is outside the repository {repo}, so its version at `{rev}` cannot be read; expected a results file inside the repository")]
+    #[error(
+        "{file} (named by {study}) is outside the repository {repo}, so its version at `{rev}` cannot be read; expected a results file inside the repository"
+    )]
     OutsideRepository {
         /// The file as the study names it.
         file: String,
@@ -72,7 +84,9 @@ pub enum DiffError {
         repo: String,
     },
     /// The study names its results file by an absolute path.
-    #[error("the results file `{file}` of {study} at `{rev}` is an absolute path, so its committed version cannot be read; expected a path relative to the study file")]
+    #[error(
+        "the results file `{file}` of {study} at `{rev}` is an absolute path, so its committed version cannot be read; expected a path relative to the study file"
+    )]
     AbsoluteResults {
         /// The file as the study names it.
         file: String,
@@ -261,7 +275,9 @@ fn write_copy(folder: &Path, file: &str, bytes: &[u8]) -> Result<PathBuf, DiffEr
 /// pipeline then reports its problems ([`evaluate_revision`]).
 pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
     if rev.is_empty() || rev.starts_with('-') {
-        return Err(DiffError::BadRevision { rev: rev.to_string() });
+        return Err(DiffError::BadRevision {
+            rev: rev.to_string(),
+        });
     }
     let shown = path.display().to_string();
     let name = path.file_name().ok_or_else(|| DiffError::NoFolder {
@@ -278,8 +294,12 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
     })?;
     let top = git_text(&dir, &["rev-parse", "--show-toplevel"])?
         .filter(|t| !t.is_empty())
-        .ok_or_else(|| DiffError::NotARepository { path: shown.clone() })?;
-    let root = PathBuf::from(&top).canonicalize().unwrap_or_else(|_| PathBuf::from(&top));
+        .ok_or_else(|| DiffError::NotARepository {
+            path: shown.clone(),
+        })?;
+    let root = PathBuf::from(&top)
+        .canonicalize()
+        .unwrap_or_else(|_| PathBuf::from(&top));
     let file = dir.join(name);
     // The file itself may be a symbolic link inside the tree; git stores the link, so only the
     // folder is resolved.
@@ -287,13 +307,23 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
         .strip_prefix(&root)
         .ok()
         .and_then(normalise)
-        .ok_or_else(|| DiffError::NotARepository { path: shown.clone() })?;
-    let commit = git_text(&root, &["rev-parse", "--verify", "--quiet", &format!("{rev}^{{commit}}")])?
-        .filter(|c| !c.is_empty())
-        .ok_or_else(|| DiffError::UnknownRevision {
-            rev: rev.to_string(),
-            repo: root.display().to_string(),
+        .ok_or_else(|| DiffError::NotARepository {
+            path: shown.clone(),
         })?;
+    let commit = git_text(
+        &root,
+        &[
+            "rev-parse",
+            "--verify",
+            "--quiet",
+            &format!("{rev}^{{commit}}"),
+        ],
+    )?
+    .filter(|c| !c.is_empty())
+    .ok_or_else(|| DiffError::UnknownRevision {
+        rev: rev.to_string(),
+        repo: root.display().to_string(),
+    })?;
 
     let folder = TempFolder::new()?;
     let bytes = blob(&root, rev, &commit, &repo_path)?;
@@ -311,13 +341,16 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
                 rev: rev.to_string(),
             });
         }
-        let study_dir = Path::new(&repo_path).parent().unwrap_or_else(|| Path::new(""));
-        let data_file = normalise(&study_dir.join(data)).ok_or_else(|| DiffError::OutsideRepository {
-            file: data.clone(),
-            study: repo_path.clone(),
-            rev: rev.to_string(),
-            repo: root.display().to_string(),
-        })?;
+        let study_dir = Path::new(&repo_path)
+            .parent()
+            .unwrap_or_else(|| Path::new(""));
+        let data_file =
+            normalise(&study_dir.join(data)).ok_or_else(|| DiffError::OutsideRepository {
+                file: data.clone(),
+                study: repo_path.clone(),
+                rev: rev.to_string(),
+                repo: root.display().to_string(),
+            })?;
         let bytes = blob(&root, rev, &commit, &data_file)?;
         write_copy(&folder.0, &data_file, &bytes)?;
         data_path = Some(data_file);
@@ -339,7 +372,11 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
 /// `REV:path`, not the temporary copies.
 pub fn evaluate_revision(revision: &Revision) -> Result<Evaluated, Diagnostics> {
     pipeline::evaluate(&revision.study_path).map_err(|mut d| {
-        let prefix = format!("{}{}", revision.folder().display(), std::path::MAIN_SEPARATOR);
+        let prefix = format!(
+            "{}{}",
+            revision.folder().display(),
+            std::path::MAIN_SEPARATOR
+        );
         for diagnostic in &mut d.0 {
             if let Some(rest) = diagnostic.file.strip_prefix(&prefix) {
                 diagnostic.file = format!("{}:{rest}", revision.rev);

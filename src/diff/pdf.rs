@@ -64,7 +64,11 @@ pub fn write_pdf(diff: &StudyDiff, typst: &typst::Typst, out: &Path) -> Result<(
         rows: rows(diff),
     };
     let env = render::environment(None);
-    let source = render::render(&env, "diff.typ.j2", minijinja::Value::from(minijinja::value::Serde(&ctx)))?;
+    let source = render::render(
+        &env,
+        "diff.typ.j2",
+        minijinja::Value::from(minijinja::value::Serde(&ctx)),
+    )?;
     let work = staging_folder(out)?;
     let result = (|| {
         std::fs::write(work.join("diff.typ"), source).map_err(|e| write_error(&work, e))?;

@@ -14,7 +14,11 @@ pub(super) fn number(value: f64) -> String {
     if !value.is_finite() {
         return fixed(value, 0);
     }
-    let magnitude = if value == 0.0 { 0 } else { value.abs().log10().floor() as i32 };
+    let magnitude = if value == 0.0 {
+        0
+    } else {
+        value.abs().log10().floor() as i32
+    };
     let decimals = (SIGNIFICANT - 1 - magnitude).clamp(0, 12) as u32;
     trim(fixed(value, decimals))
 }
@@ -108,10 +112,20 @@ fn change_rows(out: &mut Vec<Vec<String>>, what: &str, changes: &[Change]) {
 
 fn added_removed_rows(out: &mut Vec<Vec<String>>, what: &str, a: &super::AddedRemoved) {
     if !a.added.is_empty() {
-        out.push(vec![what.to_string(), "added".into(), String::new(), a.added.join(", ")]);
+        out.push(vec![
+            what.to_string(),
+            "added".into(),
+            String::new(),
+            a.added.join(", "),
+        ]);
     }
     if !a.removed.is_empty() {
-        out.push(vec![what.to_string(), "removed".into(), a.removed.join(", "), String::new()]);
+        out.push(vec![
+            what.to_string(),
+            "removed".into(),
+            a.removed.join(", "),
+            String::new(),
+        ]);
     }
 }
 
@@ -131,12 +145,26 @@ pub(super) fn rows(diff: &StudyDiff) -> Rows {
     r.results = i
         .results
         .iter()
-        .map(|c| vec![c.run.clone(), c.response.clone(), values(&c.old), values(&c.new)])
+        .map(|c| {
+            vec![
+                c.run.clone(),
+                c.response.clone(),
+                values(&c.old),
+                values(&c.new),
+            ]
+        })
         .collect();
     r.effects = o
         .effects
         .iter()
-        .map(|e| vec![e.response.clone(), e.label.clone(), effect(e.old), effect(e.new)])
+        .map(|e| {
+            vec![
+                e.response.clone(),
+                e.label.clone(),
+                effect(e.old),
+                effect(e.new),
+            ]
+        })
         .collect();
     r.verdicts = o
         .verdicts
@@ -244,11 +272,19 @@ pub fn text(diff: &StudyDiff) -> String {
     }
     if !r.verdicts.is_empty() {
         out.push_str("  verdicts that flipped\n");
-        table(&mut out, &["response", "effect", "verdict", "old", "new"], &r.verdicts);
+        table(
+            &mut out,
+            &["response", "effect", "verdict", "old", "new"],
+            &r.verdicts,
+        );
     }
     if !r.numbers.is_empty() {
         out.push_str("  criteria\n");
-        table(&mut out, &["response", "criterion", "quantity", "old", "new"], &r.numbers);
+        table(
+            &mut out,
+            &["response", "criterion", "quantity", "old", "new"],
+            &r.numbers,
+        );
     }
     if !r.removed.is_empty() || !r.added.is_empty() {
         out.push_str("  conclusion\n");
@@ -302,8 +338,15 @@ mod tests {
     #[test]
     fn columns_align_on_characters_not_bytes() {
         let mut out = String::new();
-        table(&mut out, &["a", "b"], &[vec!["°C".into(), "x".into()], vec!["ab".into(), "y".into()]]);
+        table(
+            &mut out,
+            &["a", "b"],
+            &[vec!["°C".into(), "x".into()], vec!["ab".into(), "y".into()]],
+        );
         let lines: Vec<&str> = out.lines().collect();
-        assert_eq!(lines[1].chars().position(|c| c == 'x'), lines[2].chars().position(|c| c == 'y'));
+        assert_eq!(
+            lines[1].chars().position(|c| c == 'x'),
+            lines[2].chars().position(|c| c == 'y')
+        );
     }
 }

@@ -80,7 +80,11 @@ pub fn format_number(x: f64) -> String {
     if (-4..12).contains(&mag) {
         let decimals = (11 - mag).clamp(0, 16) as usize;
         let s = format!("{x:.decimals$}");
-        let s = if s.contains('.') { s.trim_end_matches('0').trim_end_matches('.').to_string() } else { s };
+        let s = if s.contains('.') {
+            s.trim_end_matches('0').trim_end_matches('.').to_string()
+        } else {
+            s
+        };
         if s == "-0" { "0".into() } else { s }
     } else {
         format!("{x:.11e}")
@@ -91,10 +95,19 @@ fn context(record: &VerificationRecord) -> Context {
     Context {
         tool: record.tool.clone(),
         version: record.version.clone(),
-        binary: record.binary.clone().unwrap_or_else(|| "(not available)".into()),
-        binary_sha256: record.binary_sha256.clone().unwrap_or_else(|| "(not available)".into()),
+        binary: record
+            .binary
+            .clone()
+            .unwrap_or_else(|| "(not available)".into()),
+        binary_sha256: record
+            .binary_sha256
+            .clone()
+            .unwrap_or_else(|| "(not available)".into()),
         platform: format!("{} / {}", record.platform.os, record.platform.arch),
-        typst_version: record.typst_version.clone().unwrap_or_else(|| "(none)".into()),
+        typst_version: record
+            .typst_version
+            .clone()
+            .unwrap_or_else(|| "(none)".into()),
         date: record.date.clone(),
         date_source: record.date_source.clone(),
         passed: record.passed(),
@@ -121,8 +134,13 @@ fn context(record: &VerificationRecord) -> Context {
                     .map(|k| CheckContext {
                         quantity: k.quantity.clone(),
                         expected: format_value(&k.expected),
-                        computed: k.computed.as_ref().map_or_else(|| "(none)".into(), format_value),
-                        difference: k.difference.map_or_else(String::new, |d| format!("{d:.2e}")),
+                        computed: k
+                            .computed
+                            .as_ref()
+                            .map_or_else(|| "(none)".into(), format_value),
+                        difference: k
+                            .difference
+                            .map_or_else(String::new, |d| format!("{d:.2e}")),
                         tolerance: format!("{:.0e}", k.tolerance),
                         pass: k.pass,
                         note: k.note.clone().unwrap_or_default(),
@@ -148,7 +166,9 @@ pub fn write(
     typst: Option<&typst::Typst>,
 ) -> Result<PathBuf, VerifyError> {
     let source = typst_source(record)?;
-    let json = serde_json::to_string_pretty(record).map_err(|e| VerifyError::write(Path::new(JSON), e))? + "\n";
+    let json = serde_json::to_string_pretty(record)
+        .map_err(|e| VerifyError::write(Path::new(JSON), e))?
+        + "\n";
     let parent = dir
         .parent()
         .filter(|p| !p.as_os_str().is_empty())
@@ -190,7 +210,9 @@ fn replace_dir(staging: &Path, dest: &Path) -> Result<(), VerifyError> {
     if dest.exists() {
         let old = dest.with_file_name(format!(
             ".{}.old-{}",
-            dest.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default(),
+            dest.file_name()
+                .map(|n| n.to_string_lossy().to_string())
+                .unwrap_or_default(),
             std::process::id()
         ));
         std::fs::rename(dest, &old).map_err(|e| VerifyError::write(dest, e))?;

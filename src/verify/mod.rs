@@ -21,7 +21,10 @@ use serde_json::Value;
 // A case file named once: its name and its text, embedded at build time.
 macro_rules! case {
     ($name:literal) => {
-        ($name, include_str!(concat!("../../verification/cases/", $name)))
+        (
+            $name,
+            include_str!(concat!("../../verification/cases/", $name)),
+        )
     };
 }
 
@@ -42,12 +45,13 @@ pub const EMBEDDED: &[(&str, &str)] = &[
     case!("worst-case-uncertainty-ranges.yaml"),
 ];
 
-
 /// What went wrong while verifying.
 #[derive(Debug, thiserror::Error)]
 pub enum VerifyError {
     /// A case file could not be read.
-    #[error("reference case {file}: {problem}\nhint: expected `case: {{id, title, kind, source}}`, `study: <a study>` and `expect: [{{quantity, value, tolerance}}]`")]
+    #[error(
+        "reference case {file}: {problem}\nhint: expected `case: {{id, title, kind, source}}`, `study: <a study>` and `expect: [{{quantity, value, tolerance}}]`"
+    )]
     Case {
         /// The case file.
         file: String,
@@ -157,7 +161,10 @@ pub fn parse_case(file: &str, text: &str) -> Result<CaseFile, VerifyError> {
         )));
     }
     if case.expect.is_empty() {
-        return Err(problem(format!("case `{}` has no expected values", case.case.id)));
+        return Err(problem(format!(
+            "case `{}` has no expected values",
+            case.case.id
+        )));
     }
     for e in &case.expect {
         quantity::validate(&e.quantity).map_err(|q| problem(q.to_string()))?;
@@ -173,7 +180,10 @@ pub fn parse_case(file: &str, text: &str) -> Result<CaseFile, VerifyError> {
 
 /// The embedded reference cases.
 pub fn embedded_cases() -> Result<Vec<CaseFile>, VerifyError> {
-    EMBEDDED.iter().map(|(name, text)| parse_case(name, text)).collect()
+    EMBEDDED
+        .iter()
+        .map(|(name, text)| parse_case(name, text))
+        .collect()
 }
 
 /// The outcome of one expected value.
@@ -280,7 +290,10 @@ impl VerificationRecord {
         let mut failed = Vec::new();
         for case in &self.cases {
             if let Some(e) = &case.error {
-                failed.push(format!("  {}: the study could not be analysed: {e}", case.id));
+                failed.push(format!(
+                    "  {}: the study could not be analysed: {e}",
+                    case.id
+                ));
             }
             for c in case.checks.iter().filter(|c| !c.pass) {
                 failed.push(format!(
@@ -288,7 +301,9 @@ impl VerificationRecord {
                     case.id,
                     c.quantity,
                     c.expected,
-                    c.computed.as_ref().map_or_else(|| "(none)".to_string(), Value::to_string),
+                    c.computed
+                        .as_ref()
+                        .map_or_else(|| "(none)".to_string(), Value::to_string),
                     c.tolerance
                 ));
             }
@@ -325,6 +340,11 @@ pub fn run_cases(cases: &[CaseFile], options: &Options) -> VerificationRecord {
         .map(|c| c.checks.iter().filter(|k| k.pass).count())
         .sum();
     let binary = std::env::current_exe().ok();
+    // Hashed once per process: several records in one process (tests) share the binary.
+    static HASH: std::sync::OnceLock<Option<String>> = std::sync::OnceLock::new();
+    let binary_sha256 = HASH
+        .get_or_init(|| binary.as_deref().and_then(sha256_of_file))
+        .clone();
     let (date, date_source) = match &options.date {
         Some(d) => (d.clone(), "given"),
         None => (today(), "system clock"),
@@ -332,7 +352,7 @@ pub fn run_cases(cases: &[CaseFile], options: &Options) -> VerificationRecord {
     VerificationRecord {
         tool: "plateau".into(),
         version: env!("CARGO_PKG_VERSION").into(),
-        binary_sha256: binary.as_deref().and_then(sha256_of_file),
+        binary_sha256,
         binary: binary.map(|p| p.display().to_string()),
         platform: Platform {
             os: std::env::consts::OS.into(),
@@ -369,11 +389,19 @@ pub fn run_case(case: &CaseFile) -> CaseResult {
         Ok(d) => d,
         Err(e) => {
             result.error = Some(e);
-            result.checks = case.expect.iter().map(|e| compare(&info.id, e, &Value::Null)).collect();
+            result.checks = case
+                .expect
+                .iter()
+                .map(|e| compare(&info.id, e, &Value::Null))
+                .collect();
             return result;
         }
     };
-    result.checks = case.expect.iter().map(|e| compare(&info.id, e, &document)).collect();
+    result.checks = case
+        .expect
+        .iter()
+        .map(|e| compare(&info.id, e, &document))
+        .collect();
     result.pass = result.checks.iter().all(|c| c.pass);
     result
 }
@@ -388,8 +416,10 @@ fn analyse(case: &CaseFile) -> Result<Value, String> {
     let text = serde_json::to_string_pretty(&case.study).map_err(|e| e.to_string())?;
     let file = dir.join(format!("{}.yaml", safe_name(&case.case.id)));
     let outcome = (|| {
-        std::fs::create_dir_all(&dir).map_err(|e| format!("cannot create {} ({e})", dir.display()))?;
-        std::fs::write(&file, text).map_err(|e| format!("cannot write {} ({e})", file.display()))?;
+        std::fs::create_dir_all(&dir)
+            .map_err(|e| format!("cannot create {} ({e})", dir.display()))?;
+        std::fs::write(&file, text)
+            .map_err(|e| format!("cannot write {} ({e})", file.display()))?;
         let evaluated = crate::pipeline::evaluate(&file).map_err(|d| d.to_string())?;
         serde_json::to_value(&evaluated.analysis).map_err(|e| e.to_string())
     })();
@@ -399,7 +429,13 @@ fn analyse(case: &CaseFile) -> Result<Value, String> {
 
 fn safe_name(id: &str) -> String {
     id.chars()
-        .map(|c| if c.is_ascii_alphanumeric() || c == '-' || c == '_' { c } else { '_' })
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
         .collect()
 }
 
@@ -430,7 +466,9 @@ fn compare(case: &str, e: &Expectation, document: &Value) -> Check {
         };
         let worse = match &worst {
             None => true,
-            Some((_, d, p)) => (*p && !pass) || (*p == pass && diff.map(f64::abs) > d.map(f64::abs)),
+            Some((_, d, p)) => {
+                (*p && !pass) || (*p == pass && diff.map(f64::abs) > d.map(f64::abs))
+            }
         };
         if worse {
             worst = Some((v, diff, pass));
@@ -461,7 +499,8 @@ fn close(expected: &Value, computed: &Value, tolerance: f64) -> (bool, Option<f6
         ),
         (Value::Object(a), Value::Object(b)) => (
             a.len() == b.len()
-                && a.iter().all(|(k, x)| b.get(k).is_some_and(|y| close(x, y, tolerance).0)),
+                && a.iter()
+                    .all(|(k, x)| b.get(k).is_some_and(|y| close(x, y, tolerance).0)),
             None,
         ),
         (a, b) => (a == b, None),
@@ -481,7 +520,13 @@ fn sha256_of_file(path: &Path) -> Option<String> {
         }
         hasher.update(buf.get(..n)?);
     }
-    Some(hasher.finalize().iter().map(|b| format!("{b:02x}")).collect())
+    Some(
+        hasher
+            .finalize()
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect(),
+    )
 }
 
 /// Today's date (UTC) from the system clock, as YYYY-MM-DD.
@@ -519,7 +564,9 @@ pub fn check_date(date: &str) -> Result<(), String> {
     if ok {
         Ok(())
     } else {
-        Err(format!("--date {date} is not a date; expected YYYY-MM-DD, e.g. 2026-03-31"))
+        Err(format!(
+            "--date {date} is not a date; expected YYYY-MM-DD, e.g. 2026-03-31"
+        ))
     }
 }
 
@@ -535,7 +582,9 @@ pub fn command(
     let options = Options { date, typst };
     let record = run(&options)?;
     let text = if json {
-        serde_json::to_string_pretty(&record).map_err(|e| VerifyError::write(Path::new("(stdout)"), e))? + "\n"
+        serde_json::to_string_pretty(&record)
+            .map_err(|e| VerifyError::write(Path::new("(stdout)"), e))?
+            + "\n"
     } else {
         let dir = document::write(&record, out_dir, options.typst.as_ref())?;
         format!(
@@ -584,7 +633,11 @@ mod tests {
 
     #[test]
     fn a_number_within_tolerance_passes_and_reports_the_difference() {
-        let (pass, d) = close(&serde_json::json!(1.0), &serde_json::json!(1.0 + 1e-12), 1e-9);
+        let (pass, d) = close(
+            &serde_json::json!(1.0),
+            &serde_json::json!(1.0 + 1e-12),
+            1e-9,
+        );
         assert!(pass);
         assert!(d.is_some_and(|d| d > 0.0));
         assert!(!close(&serde_json::json!(1.0), &serde_json::json!(1.1), 1e-9).0);
@@ -601,15 +654,5 @@ mod tests {
     fn every_embedded_case_parses() {
         let cases = embedded_cases().unwrap();
         assert_eq!(cases.len(), EMBEDDED.len());
-    }
-}
-#[cfg(test)]
-mod scratch_run {
-    #[test]
-    fn scratch_print_failures() {
-        for c in super::embedded_cases().unwrap() { let t = std::time::Instant::now(); let r = super::run_case(&c); println!("{} {} {:?}", c.case.id, r.pass, t.elapsed()); }
-        let r = super::run(&super::Options { date: Some("2026-01-01".into()), typst: None }).unwrap();
-        println!("{} checks {} failed", r.summary.checks, r.summary.failed);
-        if let Err(e) = r.outcome() { println!("{e}"); }
     }
 }

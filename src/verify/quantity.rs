@@ -28,7 +28,9 @@ enum Expr {
 
 /// A quantity that cannot be parsed, with what would be valid.
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
-#[error("quantity `{quantity}`: {problem}; expected e.g. `responses[0].effects[label=T].effect`, `abs(path)` or `path / path`")]
+#[error(
+    "quantity `{quantity}`: {problem}; expected e.g. `responses[0].effects[label=T].effect`, `abs(path)` or `path / path`"
+)]
 pub struct QuantityError {
     /// The quantity as written.
     pub quantity: String,
@@ -94,7 +96,10 @@ fn parse_path(text: &str) -> Result<Vec<Step>, String> {
             '.' => {
                 if !key.is_empty() {
                     steps.push(Step::Key(std::mem::take(&mut key)));
-                } else if !matches!(steps.last(), Some(Step::Index(_) | Step::Filter(_) | Step::All)) {
+                } else if !matches!(
+                    steps.last(),
+                    Some(Step::Index(_) | Step::Filter(_) | Step::All)
+                ) {
                     return Err(format!("an empty field name at character {}", i + 1));
                 }
             }
@@ -144,7 +149,9 @@ fn selector(inner: &str) -> Result<Step, String> {
     let mut conditions = Vec::new();
     for part in inner.split('&') {
         let Some((k, v)) = part.split_once('=') else {
-            return Err(format!("the selector `[{inner}]` is neither an index, `*` nor `field=value`"));
+            return Err(format!(
+                "the selector `[{inner}]` is neither an index, `*` nor `field=value`"
+            ));
         };
         if k.trim().is_empty() {
             return Err(format!("the selector `[{inner}]` names no field"));
@@ -159,10 +166,7 @@ fn eval(expr: &Expr, doc: &Value) -> Vec<Option<Value>> {
         Expr::Path(steps) => {
             let mut current: Vec<Option<&Value>> = vec![Some(doc)];
             for step in steps {
-                current = current
-                    .into_iter()
-                    .flat_map(|v| apply(step, v))
-                    .collect();
+                current = current.into_iter().flat_map(|v| apply(step, v)).collect();
             }
             current
                 .into_iter()
@@ -192,7 +196,9 @@ fn number(x: f64) -> Value {
 }
 
 fn apply<'a>(step: &Step, value: Option<&'a Value>) -> Vec<Option<&'a Value>> {
-    let Some(value) = value else { return vec![None] };
+    let Some(value) = value else {
+        return vec![None];
+    };
     match step {
         Step::Key(k) => vec![value.get(k)],
         Step::Index(i) => vec![value.get(*i)],
@@ -201,9 +207,11 @@ fn apply<'a>(step: &Step, value: Option<&'a Value>) -> Vec<Option<&'a Value>> {
             _ => vec![None],
         },
         Step::Filter(conditions) => vec![value.as_array().and_then(|items| {
-            items
-                .iter()
-                .find(|item| conditions.iter().all(|(k, v)| item.get(k).is_some_and(|f| matches(f, v))))
+            items.iter().find(|item| {
+                conditions
+                    .iter()
+                    .all(|(k, v)| item.get(k).is_some_and(|f| matches(f, v)))
+            })
         })],
     }
 }
@@ -232,7 +240,10 @@ mod tests {
 
     #[test]
     fn a_label_selector_finds_the_effect() {
-        assert_eq!(evaluate("responses[0].effects[label=C].effect", &doc()).unwrap(), vec![Some(json!(-5.0))]);
+        assert_eq!(
+            evaluate("responses[0].effects[label=C].effect", &doc()).unwrap(),
+            vec![Some(json!(-5.0))]
+        );
     }
 
     #[test]
@@ -249,7 +260,11 @@ mod tests {
 
     #[test]
     fn a_ratio_divides_two_paths() {
-        let v = evaluate("responses[0].criteria[0].me / responses[0].criteria[0].pse", &doc()).unwrap();
+        let v = evaluate(
+            "responses[0].criteria[0].me / responses[0].criteria[0].pse",
+            &doc(),
+        )
+        .unwrap();
         assert_eq!(v, vec![Some(json!(2.0))]);
     }
 
@@ -261,8 +276,14 @@ mod tests {
 
     #[test]
     fn a_missing_or_null_field_is_none() {
-        assert_eq!(evaluate("responses[0].effects[label=X].effect", &doc()).unwrap(), vec![None]);
-        assert_eq!(evaluate("responses[0].criteria[0].note", &doc()).unwrap(), vec![None]);
+        assert_eq!(
+            evaluate("responses[0].effects[label=X].effect", &doc()).unwrap(),
+            vec![None]
+        );
+        assert_eq!(
+            evaluate("responses[0].criteria[0].note", &doc()).unwrap(),
+            vec![None]
+        );
     }
 
     #[test]

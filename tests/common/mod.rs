@@ -34,7 +34,9 @@ pub struct Run {
 /// `plateau ARGS...`.
 pub fn plateau(args: &[&str]) -> Invocation {
     let mut cmd = Command::new(env!("CARGO_BIN_EXE_plateau"));
-    cmd.args(args).env("NO_COLOR", "1").env_remove("PLATEAU_TYPST");
+    cmd.args(args)
+        .env("NO_COLOR", "1")
+        .env_remove("PLATEAU_TYPST");
     Invocation { cmd }
 }
 
@@ -122,7 +124,11 @@ pub fn pdf_text(pdf: &Path) -> String {
         .arg("-")
         .output()
         .expect("pdftotext (poppler-utils) is installed; `.ci/run` installs it");
-    assert!(out.status.success(), "pdftotext failed on {}", pdf.display());
+    assert!(
+        out.status.success(),
+        "pdftotext failed on {}",
+        pdf.display()
+    );
     String::from_utf8_lossy(&out.stdout).to_string()
 }
 
