@@ -116,11 +116,11 @@ fn write_study(dir: &Path, k: usize, design_yaml: &str, runs: usize) -> PathBuf 
     }
     let _ = write!(
         yaml,
-        "design:\n{design_yaml}responses:\n  - id: y\n    name: Response\n    unit: \"%\"\n    decimals: 3\n    percent-of: mean\n\
-acceptance:\n  - response: y\n    effect-limit: 2.0\n  - response: y\n    significance: {{ method: lenth, alpha: 0.05 }}\n\
+        "design:\n{design_yaml}responses:\n  - id: content\n    name: Response\n    unit: \"%\"\n    decimals: 3\n    percent-of: mean\n\
+acceptance:\n  - response: content\n    effect-limit: 2.0\n  - response: content\n    significance: {{ method: lenth, alpha: 0.05 }}\n\
 results:\n  file: results.csv\n"
     );
-    let mut csv = String::from("run,y\n");
+    let mut csv = String::from("run,content\n");
     for (i, v) in invented_response(runs, k, 0x5eed + k as u64).iter().enumerate() {
         let _ = writeln!(csv, "{},{v:.3}", i + 1);
     }

@@ -43,26 +43,51 @@ impl Drop for Scratch {
     }
 }
 
+/// How far an input got through the pipeline before plateau refused it (or got to the end).
+///
+/// The fuzz targets ignore it; the smoke test uses it to check that the corpus reaches every
+/// stage, so that a harness that refuses everything cannot pass unnoticed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+pub enum Reached {
+    /// Refused before parsing (not UTF-8, or not a study file).
+    Nothing,
+    /// Parsed and schema-checked.
+    Parsed,
+    /// Passed the semantic checks.
+    Loaded,
+    /// Planned.
+    Planned,
+    /// Its results were read.
+    Read,
+    /// Analysed.
+    Analysed,
+    /// The report files were rendered.
+    Rendered,
+}
+
 /// Study loader: bytes → UTF-8 → `study::load::parse`; a file that parses is then loaded from
 /// disk (the semantic checks), planned, and, when its results are inline, analysed.
-pub fn study_loader(data: &[u8]) {
+pub fn study_loader(data: &[u8]) -> Reached {
     let Ok(text) = std::str::from_utf8(data) else {
         // Non-UTF-8 bytes must be refused by the decoder with a position, never a panic.
         let _ = plateau::study::load::decode(data, "study.yaml");
-        return;
+        return Reached::Nothing;
     };
     if plateau::study::load::parse(text, "study.yaml").is_err() {
-        return;
+        return Reached::Nothing;
     }
-    let Some(scratch) = Scratch::new("load") else { return };
-    let Some(path) = scratch.write("study.yaml", data) else { return };
-    let Ok(study) = plateau::study::load(&path) else { return };
-    let Ok(design) = plateau::design::plan(&study) else { return };
+    let Some(scratch) = Scratch::new("load") else { return Reached::Parsed };
+    let Some(path) = scratch.write("study.yaml", data) else { return Reached::Parsed };
+    let Ok(study) = plateau::study::load(&path) else { return Reached::Parsed };
+    let Ok(design) = plateau::design::plan(&study) else { return Reached::Loaded };
     let inline = study.results.as_ref().is_some_and(|r| r.runs.is_some());
-    if inline {
-        if let Ok(data) = results::read(&study, &design) {
-            let _ = plateau::analysis::analyse(&study, &design, &data);
-        }
+    if !inline {
+        return Reached::Planned;
+    }
+    let Ok(values) = results::read(&study, &design) else { return Reached::Planned };
+    match plateau::analysis::analyse(&study, &design, &values) {
+        Ok(_) => Reached::Analysed,
+        Err(_) => Reached::Read,
     }
 }
 
@@ -72,37 +97,44 @@ const CSV_STUDY: &str = include_str!("../examples/hplc-assay/study.yaml");
 
 /// Results CSV reader: the HPLC example study with arbitrary bytes as its `results.csv`, then
 /// `results::read` and, when the file is accepted, the analysis.
-pub fn results_csv(data: &[u8]) {
-    let Some(scratch) = Scratch::new("csv") else { return };
-    let Some(path) = scratch.write("study.yaml", CSV_STUDY.as_bytes()) else { return };
+pub fn results_csv(data: &[u8]) -> Reached {
+    let Some(scratch) = Scratch::new("csv") else { return Reached::Nothing };
+    let Some(path) = scratch.write("study.yaml", CSV_STUDY.as_bytes()) else { return Reached::Nothing };
     if scratch.write("results.csv", data).is_none() {
-        return;
+        return Reached::Nothing;
     }
     let Ok((study, design)) = plateau::pipeline::plan(&path) else {
         // The example study is valid; failing to plan it is a harness bug, not a finding.
         panic!("the fixed example study no longer plans");
     };
-    if let Ok(values) = results::read(&study, &design) {
-        let _ = plateau::analysis::analyse(&study, &design, &values);
+    let Ok(values) = results::read(&study, &design) else { return Reached::Planned };
+    match plateau::analysis::analyse(&study, &design, &values) {
+        Ok(_) => Reached::Analysed,
+        Err(_) => Reached::Read,
     }
 }
 
 /// Analysis: a small valid study derived from the bytes (2–5 factors, a design kind, nominal
 /// runs, criteria, arbitrary finite responses), then the whole pipeline and the report files
 /// (no typesetter).
-pub fn analysis(data: &[u8]) {
+pub fn analysis(data: &[u8]) -> Reached {
     let mut input = Input::new(data);
     let spec = StudySpec::derive(&mut input);
-    let Some(scratch) = Scratch::new("analysis") else { return };
+    let Some(scratch) = Scratch::new("analysis") else { return Reached::Nothing };
     // First the plan alone, to learn the run ids the results must name.
-    let Some(path) = scratch.write("study.yaml", spec.yaml(None).as_bytes()) else { return };
-    let Ok((_, design)) = plateau::pipeline::plan(&path) else { return };
+    let Some(path) = scratch.write("study.yaml", spec.yaml(None).as_bytes()) else {
+        return Reached::Nothing;
+    };
+    let Ok((_, design)) = plateau::pipeline::plan(&path) else { return Reached::Nothing };
     let ids: Vec<String> = design.runs.iter().map(|r| r.id.0.clone()).collect();
     let values = spec.values(&mut input, ids.len());
     let text = spec.yaml(Some((&ids, &values)));
-    let Some(path) = scratch.write("study.yaml", text.as_bytes()) else { return };
-    let Ok(evaluated) = plateau::pipeline::evaluate(&path) else { return };
-    let _ = report::render_files(&evaluated, &report::Options::default());
+    let Some(path) = scratch.write("study.yaml", text.as_bytes()) else { return Reached::Planned };
+    let Ok(evaluated) = plateau::pipeline::evaluate(&path) else { return Reached::Planned };
+    match report::render_files(&evaluated, &report::Options::default()) {
+        Ok(_) => Reached::Rendered,
+        Err(_) => Reached::Analysed,
+    }
 }
 
 /// Reads the fuzz bytes as a stream of small decisions; once exhausted every read is 0, so a

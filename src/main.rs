@@ -116,6 +116,23 @@ enum Command {
         #[arg(long, value_name = "PATH")]
         typst: Option<PathBuf>,
     },
+    /// Run the reference cases on this installation and write a calculation verification
+    /// record (installation and operational qualification evidence).
+    #[command(after_help = EXIT_CODES)]
+    Verify {
+        /// Record folder [default: plateau-verification].
+        #[arg(short, long, value_name = "DIR")]
+        output: Option<PathBuf>,
+        /// Print the record as JSON instead of writing the folder (no typesetter needed).
+        #[arg(long)]
+        json: bool,
+        /// Date of the record, YYYY-MM-DD [default: today, from the system clock].
+        #[arg(long, value_name = "YYYY-MM-DD")]
+        date: Option<String>,
+        /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
+        #[arg(long, value_name = "PATH")]
+        typst: Option<PathBuf>,
+    },
     /// Work with the report templates.
     Templates {
         #[command(subcommand)]
@@ -407,6 +424,30 @@ fn run(command: Command) -> Result<(), Failure> {
                 Ok(())
             } else {
                 Err(Failure::Silent(1))
+            }
+        }
+        Command::Verify {
+            output,
+            json,
+            date,
+            typst: typst_path,
+        } => {
+            if let Some(d) = &date {
+                plateau::verify::check_date(d).map_err(Failure::Usage)?;
+            }
+            let typst = if json {
+                typst::find(typst_path.as_deref()).ok()
+            } else {
+                Some(typst::find(typst_path.as_deref()).map_err(|e| Failure::Typesetter(e.to_string()))?)
+            };
+            let dir = output.unwrap_or_else(plateau::verify::default_dir);
+            match plateau::verify::command(&dir, json, date, typst) {
+                Ok(text) => {
+                    print!("{text}");
+                    Ok(())
+                }
+                Err(e @ plateau::verify::VerifyError::Typst(_)) => Err(Failure::Typesetter(e.to_string())),
+                Err(e) => Err(Failure::Other(e.to_string())),
             }
         }
         Command::Templates {

@@ -72,6 +72,15 @@ fn repository(root: &Path) -> PathBuf {
     study
 }
 
+/// Response, effect, verdict, old, new.
+type Flip<'a> = (
+    &'a str,
+    Option<&'a str>,
+    &'a str,
+    Option<bool>,
+    Option<bool>,
+);
+
 /// Checks the changes the re-run must show (shared by the file and the git comparison).
 fn assert_rerun_changes(d: &StudyDiff) {
     // Inputs: the four re-measured assay values, nothing else.
@@ -104,7 +113,7 @@ fn assert_rerun_changes(d: &StudyDiff) {
     assert!((new.percent - -1.80 / 99.8 * 100.0).abs() < 1e-9);
 
     // The flipped verdicts: the pH effect is no longer relevant, the assay is now robust.
-    let flips: Vec<(&str, Option<&str>, &str, Option<bool>, Option<bool>)> = d
+    let flips: Vec<Flip> = d
         .outputs
         .verdicts
         .iter()

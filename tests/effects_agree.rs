@@ -224,7 +224,7 @@ proptest! {
         }
         write!(
             yaml,
-            "design:\n  kind: full-factorial\n  replicates: {replicates}\nresponses:\n  - id: y\n    name: Response\n    percent-of: mean\nacceptance:\n  - response: y\n    effect-limit: 2.0\nresults:\n  file: results.csv\n"
+            "design:\n  kind: full-factorial\n  replicates: {replicates}\nresponses:\n  - id: content\n    name: Response\n    percent-of: mean\nacceptance:\n  - response: content\n    effect-limit: 2.0\nresults:\n  file: results.csv\n"
         ).unwrap();
         if !excluded.is_empty() {
             yaml.push_str("excluded:\n");
@@ -232,7 +232,7 @@ proptest! {
                 writeln!(yaml, "  - {{ run: {}, reason: generated exclusion }}", i + 1).unwrap();
             }
         }
-        let mut csv = String::from("run,y\n");
+        let mut csv = String::from("run,content\n");
         for (i, v) in y_all.iter().enumerate() {
             writeln!(csv, "{},{v:.3}", i + 1).unwrap();
         }

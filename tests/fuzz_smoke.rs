@@ -12,6 +12,8 @@ use std::panic::{AssertUnwindSafe, catch_unwind};
 use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
 
+use harness::Reached;
+
 /// The fuzz targets run their inputs with `-timeout=10`; the debug build gets the same bound.
 const PER_INPUT: Duration = Duration::from_secs(10);
 /// Committed corpus size limits (the corpus is a seed set, not a fuzzing run's output).
@@ -31,22 +33,31 @@ fn inputs(target: &str) -> Vec<PathBuf> {
     files
 }
 
-/// Runs every input through `harness`; lists every input that panicked or ran too long.
-fn replay(target: &str, harness: fn(&[u8])) {
+/// Runs every input through `harness`; lists every input that panicked or ran too long, and
+/// checks that at least one input got as far as `deepest` (a harness that refuses everything
+/// would otherwise pass).
+fn replay(target: &str, harness: fn(&[u8]) -> Reached, deepest: Reached) {
     let files = inputs(target);
     assert!(
         !files.is_empty(),
         "no corpus for fuzz target {target} under fuzz/corpus/{target}/"
     );
     let mut failures = Vec::new();
+    let mut furthest = Reached::Nothing;
+    let mut stages = std::collections::BTreeMap::<Reached, usize>::new();
     for file in &files {
         let bytes = std::fs::read(file).unwrap();
         let start = Instant::now();
         let outcome = catch_unwind(AssertUnwindSafe(|| harness(&bytes)));
         let elapsed = start.elapsed();
-        if outcome.is_err() {
-            failures.push(format!("{}: panicked", file.display()));
-        } else if elapsed > PER_INPUT {
+        match outcome {
+            Ok(reached) => {
+                furthest = furthest.max(reached);
+                *stages.entry(reached).or_default() += 1;
+            }
+            Err(_) => failures.push(format!("{}: panicked", file.display())),
+        }
+        if elapsed > PER_INPUT {
             failures.push(format!("{}: took {elapsed:?}", file.display()));
         }
     }
@@ -57,21 +68,23 @@ fn replay(target: &str, harness: fn(&[u8])) {
         files.len(),
         failures.join("\n")
     );
+    println!("{target}: {} inputs, stage reached: {stages:?}", files.len());
+    assert_eq!(furthest, deepest, "no input of {target} got through the whole harness");
 }
 
 #[test]
 fn study_loader_survives_its_corpus() {
-    replay("study_loader", harness::study_loader);
+    replay("study_loader", harness::study_loader, Reached::Analysed);
 }
 
 #[test]
 fn results_csv_survives_its_corpus() {
-    replay("results_csv", harness::results_csv);
+    replay("results_csv", harness::results_csv, Reached::Analysed);
 }
 
 #[test]
 fn analysis_survives_its_corpus() {
-    replay("analysis", harness::analysis);
+    replay("analysis", harness::analysis, Reached::Rendered);
 }
 
 #[test]

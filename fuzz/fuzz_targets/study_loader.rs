@@ -4,4 +4,6 @@
 #[path = "../harness.rs"]
 mod harness;
 
-libfuzzer_sys::fuzz_target!(|data: &[u8]| harness::study_loader(data));
+libfuzzer_sys::fuzz_target!(|data: &[u8]| {
+    let _ = harness::study_loader(data);
+});

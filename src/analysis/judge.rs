@@ -670,9 +670,12 @@ fn worst_case(
     let list: Vec<(String, f64)> = chosen.iter().map(|e| (e.label.clone(), e.effect)).collect();
     let prediction = decision::worst_case(mean, &list, direction).ok()?;
     let scale = 10f64.powi(decimals as i32);
+    // Rounded outward to the response's decimals, after removing binary floating-point noise
+    // (1.08 computed as 1.0799999999999998 must stay 1.08).
+    let scaled = (prediction.predicted * scale * 1e6).round() / 1e6;
     let proposed = match direction {
-        Direction::Lower => (prediction.predicted * scale).floor() / scale,
-        Direction::Higher => (prediction.predicted * scale).ceil() / scale,
+        Direction::Lower => scaled.floor() / scale,
+        Direction::Higher => scaled.ceil() / scale,
     };
     let meets = match (min, max) {
         (None, None) => None,

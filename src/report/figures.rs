@@ -66,11 +66,24 @@ pub fn build(evaluated: &Evaluated) -> Result<Vec<Figure>, PlotError> {
 /// Lenth's ME and SME) belong here too, after the limits: the plot colours points beyond the
 /// first line, so the practical limit stays first.
 pub fn reference_lines(response: &ResponseAnalysis) -> Vec<RefLine> {
-    limit_lines(
+    let mut lines = limit_lines(
         &response.limits,
         response.reference,
         response.unit.as_deref(),
-    )
+    );
+    // The first statistical criterion: E_crit, or Lenth's ME and SME.
+    if let Some(c) = response.criteria.iter().find(|c| c.method != "effect-limit") {
+        match (c.me, c.sme, c.e_crit) {
+            (Some(me), Some(sme), _) => {
+                lines.push(RefLine { name: "ME".into(), value: me });
+                lines.push(RefLine { name: "SME".into(), value: sme });
+            }
+            (_, _, Some(e)) => lines.push(RefLine { name: "E_crit".into(), value: e }),
+            _ => {}
+        }
+    }
+    lines.retain(|l| l.value.is_finite() && l.value > 0.0);
+    lines
 }
 
 /// The declared limits as vertical lines in the response's unit (see [`reference_lines`]).
@@ -230,11 +243,23 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
             String::new()
         },
     );
-    if let Some(first) = lines.first() {
+    let described: Vec<String> = lines
+        .iter()
+        .map(|l| {
+            let what = if l.name.starts_with("limit") {
+                "the acceptance limit expressed as an effect".to_string()
+            } else if l.name == "E_crit" {
+                "the critical effect E_crit of the first statistical criterion".to_string()
+            } else {
+                format!("Lenth's {}", l.name)
+            };
+            format!("{what} ({}{})", fixed(l.value, response.decimals + 1), unit_suffix(response))
+        })
+        .collect();
+    if !described.is_empty() {
         caption.push_str(&format!(
-            " The dashed line is the acceptance limit expressed as an effect ({}{}).",
-            fixed(first.value, response.decimals + 1),
-            unit_suffix(response)
+            " Vertical lines: {}; points beyond the first are drawn in red.",
+            crate::report::conclusion::and_list(&described)
         ));
     }
     if aliased {
@@ -501,11 +526,31 @@ fn run_order_figure(
         return Ok(None);
     }
     let nominal = runs.iter().filter(|r| r.nominal).count();
-    // Drift: the lead adds the fitted line (`drift: Some(..)`) when drift was checked.
+    let drift = response
+        .drift
+        .as_ref()
+        .and_then(|d| d.check.as_ref())
+        .map(|d| plot::Drift {
+            intercept: d.intercept,
+            slope: d.slope,
+        });
+    let limits: Vec<RefLine> = evaluated
+        .study
+        .suitability
+        .iter()
+        .filter(|l| evaluated.study.responses.get(l.response).is_some_and(|r| r.id == response.id))
+        .flat_map(|l| {
+            [
+                l.min.map(|v| RefLine { name: format!("min {}", setting(v)), value: v }),
+                l.max.map(|v| RefLine { name: format!("max {}", setting(v)), value: v }),
+            ]
+        })
+        .flatten()
+        .collect();
     let svg = plot::run_order(&plot::RunOrder {
         runs,
-        drift: None,
-        limits: Vec::new(),
+        drift,
+        limits,
         x_title: "run order".to_string(),
         y_title: titled(response),
         run_label: "two-level run".to_string(),
