@@ -194,6 +194,11 @@ fn main() {
             bench.case("analyse/plackett-burman/48", d.runs.len(), || analysis::analyse(&s, &d, &m).unwrap());
         }
         bench.case("evaluate/plackett-burman/48", 48, || pipeline::evaluate(&path).unwrap());
+        bench.case("stage/load/plackett-burman/48", 48, || study::load(&path).unwrap());
+        if bench.wants("stage/plan/plackett-burman/48") {
+            let s = study::load(&path).unwrap();
+            bench.case("stage/plan/plackett-burman/48", 48, || design::plan(&s).unwrap());
+        }
     }
 
     // (c) One example from the study file to the analysis: load, plan, read, analyse.
@@ -208,5 +213,12 @@ fn main() {
         std::fs::create_dir_all(&dir).unwrap();
         let path = write_study(&dir, 16, "  kind: full-factorial\n", 1 << 16);
         bench.case("evaluate/full-factorial/2^16", 1 << 16, || pipeline::evaluate(&path).unwrap());
+        bench.case("stage/load/full-factorial/2^16", 1 << 16, || study::load(&path).unwrap());
+        if bench.wants("stage/plan/full-factorial/2^16") || bench.wants("stage/read/full-factorial/2^16") {
+            let s = study::load(&path).unwrap();
+            bench.case("stage/plan/full-factorial/2^16", 1 << 16, || design::plan(&s).unwrap());
+            let d = design::plan(&s).unwrap();
+            bench.case("stage/read/full-factorial/2^16", 1 << 16, || results::read(&s, &d).unwrap());
+        }
     }
 }

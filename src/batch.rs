@@ -30,6 +30,9 @@ pub struct Inputs {
     pub templates: Vec<(String, String, String)>,
 }
 
+/// The templates a report is rendered from (the others make run sheets, diffs and records).
+pub const REPORT_TEMPLATES: [&str; 2] = ["report.typ.j2", "section.typ.j2"];
+
 /// Name of the record in the report folder.
 pub const RECORD: &str = "inputs.json";
 
@@ -63,6 +66,7 @@ pub fn inputs(study: &Study, templates: Option<&Path>, typst_version: Option<&st
             .map(|f| (name(f), file_hash(&dir.join(f)))),
         templates: BUILT_IN
             .iter()
+            .filter(|(n, _)| REPORT_TEMPLATES.contains(n))
             .map(|(n, text)| {
                 let lab = templates.map(|d| d.join(n)).filter(|p| p.is_file());
                 match lab {

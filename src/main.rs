@@ -133,6 +133,33 @@ enum Command {
         #[arg(long, value_name = "PATH")]
         typst: Option<PathBuf>,
     },
+    /// Show what changed between two versions of a study: the inputs (factors, design,
+    /// criteria, results per run) and the outputs (effects, verdicts, conclusion sentences).
+    #[command(after_help = EXIT_CODES)]
+    Diff {
+        /// The old study file (with --rev: the study file, read as committed at REV).
+        old: PathBuf,
+        /// The new study file [default with --rev: OLD as it is in the working tree].
+        new: Option<PathBuf>,
+        /// Read OLD as committed at this git revision (a commit, branch, tag or HEAD~1).
+        #[arg(long, value_name = "REV")]
+        rev: Option<String>,
+        /// Print the changes as JSON.
+        #[arg(long, conflicts_with = "pdf")]
+        json: bool,
+        /// Typeset a one-page change summary for the reviewer as PDF (needs -o FILE).
+        #[arg(long, requires = "output")]
+        pdf: bool,
+        /// The PDF file to write (with --pdf; never overwrites without --force).
+        #[arg(short, long, value_name = "FILE", requires = "pdf")]
+        output: Option<PathBuf>,
+        /// Replace an existing PDF.
+        #[arg(long)]
+        force: bool,
+        /// The typst binary (with --pdf) [default: $PLATEAU_TYPST, then `typst` on the PATH].
+        #[arg(long, value_name = "PATH")]
+        typst: Option<PathBuf>,
+    },
     /// Work with the report templates.
     Templates {
         #[command(subcommand)]
@@ -449,6 +476,73 @@ fn run(command: Command) -> Result<(), Failure> {
                 Err(e @ plateau::verify::VerifyError::Typst(_)) => Err(Failure::Typesetter(e.to_string())),
                 Err(e) => Err(Failure::Other(e.to_string())),
             }
+        }
+        Command::Diff {
+            old,
+            new,
+            rev,
+            json,
+            pdf,
+            output,
+            force,
+            typst: typst_path,
+        } => {
+            let new_path = match (&new, &rev) {
+                (Some(n), _) => n.clone(),
+                (None, Some(_)) => old.clone(),
+                (None, None) => {
+                    return Err(Failure::Usage(
+                        "name two study files (OLD NEW), or one with --rev REV".into(),
+                    ));
+                }
+            };
+            if let Some(out) = output.as_ref().filter(|o| o.exists() && !force) {
+                return Err(Failure::Other(format!(
+                    "{} already exists\nhint: use --force to replace it",
+                    out.display()
+                )));
+            }
+            let typesetter = if pdf {
+                Some(typst::find(typst_path.as_deref()).map_err(|e| Failure::Typesetter(e.to_string()))?)
+            } else {
+                None
+            };
+            let (old_evaluated, old_label, old_file) = match &rev {
+                Some(r) => {
+                    let revision = plateau::diff::load_revision(&old, r)
+                        .map_err(|e| Failure::Other(e.to_string()))?;
+                    let evaluated = plateau::diff::evaluate_revision(&revision)?;
+                    (evaluated, revision.label(), revision.file())
+                }
+                None => (
+                    pipeline::evaluate(&old)?,
+                    old.display().to_string(),
+                    old.display().to_string(),
+                ),
+            };
+            let new_evaluated = pipeline::evaluate(&new_path)?;
+            let new_label = if rev.is_some() && new.is_none() {
+                "working copy".to_string()
+            } else {
+                new_path.display().to_string()
+            };
+            let d = plateau::diff::compare(&old_evaluated, &new_evaluated)
+                .with_labels(old_label, new_label)
+                .with_files(old_file, new_path.display().to_string());
+            if let Some(t) = typesetter {
+                let out = output.as_deref().unwrap_or(std::path::Path::new("diff.pdf"));
+                plateau::diff::write_pdf(&d, &t, out).map_err(|e| match e {
+                    report::ReportError::Typst(e) => Failure::Typesetter(e.to_string()),
+                    other => Failure::Other(other.to_string()),
+                })?;
+                println!("ok  change summary written to {}", out.display());
+            } else if json {
+                let text = serde_json::to_string_pretty(&d).map_err(|e| Failure::Other(e.to_string()))?;
+                println!("{text}");
+            } else {
+                print!("{}", plateau::diff::text(&d));
+            }
+            Ok(())
         }
         Command::Templates {
             action: TemplatesAction::Export { dir },

@@ -259,3 +259,39 @@ fn study_text_is_printed_literally_never_run() {
     );
     assert!(!flat.contains("root:x:0:0"), "a file was read");
 }
+
+#[test]
+fn diff_of_identical_studies_says_no_changes_and_exits_0() {
+    let study = fixture("diff-hplc-rerun/study.yaml");
+    let run = plateau(&["diff"]).arg_path(&study).arg_path(&study).ok();
+    assert!(run.stdout.trim_end().ends_with("no changes"), "{}", run.stdout);
+}
+
+#[test]
+fn diff_of_a_rerun_lists_the_changed_effect_the_flipped_verdict_and_the_new_sentence() {
+    let dir = tempfile::tempdir().unwrap();
+    for f in ["study.yaml", "results-rerun.csv", "results.csv"] {
+        std::fs::copy(fixture(&format!("diff-hplc-rerun/{f}")), dir.path().join(f)).unwrap();
+    }
+    let text = std::fs::read_to_string(dir.path().join("study.yaml")).unwrap();
+    std::fs::write(
+        dir.path().join("rerun.yaml"),
+        text.replace("file: results.csv", "file: results-rerun.csv"),
+    )
+    .unwrap();
+    let run = plateau(&["diff"])
+        .arg_path(&dir.path().join("study.yaml"))
+        .arg_path(&dir.path().join("rerun.yaml"))
+        .ok();
+    assert!(run.stdout.contains("verdicts that flipped"), "{}", run.stdout);
+    assert!(run.stdout.contains("relevant  yes  no"), "{}", run.stdout);
+    assert!(run.stdout.contains("+ Within the tested ranges"), "{}", run.stdout);
+    let json = json_of(
+        &plateau(&["diff", "--json"])
+            .arg_path(&dir.path().join("study.yaml"))
+            .arg_path(&dir.path().join("rerun.yaml"))
+            .ok()
+            .stdout,
+    );
+    assert!(json["outputs"].is_object(), "{json}");
+}
