@@ -66,7 +66,8 @@ pub enum Reached {
 }
 
 /// Study loader: bytes → UTF-8 → `study::load::parse`; a file that parses is then loaded from
-/// disk (the semantic checks), planned, and, when its results are inline, analysed.
+/// disk (the semantic checks), planned, its results read (inline, or a CSV file named relative
+/// to the scratch folder, which does not exist) and analysed.
 pub fn study_loader(data: &[u8]) -> Reached {
     let Ok(text) = std::str::from_utf8(data) else {
         // Non-UTF-8 bytes must be refused by the decoder with a position, never a panic.
@@ -80,10 +81,6 @@ pub fn study_loader(data: &[u8]) -> Reached {
     let Some(path) = scratch.write("study.yaml", data) else { return Reached::Parsed };
     let Ok(study) = plateau::study::load(&path) else { return Reached::Parsed };
     let Ok(design) = plateau::design::plan(&study) else { return Reached::Loaded };
-    let inline = study.results.as_ref().is_some_and(|r| r.runs.is_some());
-    if !inline {
-        return Reached::Planned;
-    }
     let Ok(values) = results::read(&study, &design) else { return Reached::Planned };
     match plateau::analysis::analyse(&study, &design, &values) {
         Ok(_) => Reached::Analysed,

@@ -8,6 +8,8 @@
 //! 4. [`analysis::analyse`] — effects, percent effects, verdicts;
 //! 5. [`report`] — the template context, the Typst source, and the typesetter call.
 #![deny(missing_docs)]
+// No unwrap or expect that user data could reach: errors are values (tests may unwrap).
+#![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used))]
 
 pub mod analysis;
 pub mod batch;

@@ -247,7 +247,11 @@ pub fn analyse_response(
                 if reference_kind == "nominal-mean" { "nominal-run mean" } else { "design mean" },
                 if reference.is_finite() { reference.to_string() } else { "(none)".into() }
             ),
-            "expected a reference different from zero; use `percent-of: mean` or judge the response with an absolute limit (`unit: absolute`)",
+            if reference_kind == "nominal-mean" {
+                "expected a reference different from zero; use `percent-of: mean`, or judge the response with an absolute limit (`unit: absolute`)"
+            } else {
+                "expected a reference different from zero; judge the response with an absolute limit (`unit: absolute`)"
+            },
         ));
     }
 

@@ -299,8 +299,8 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
                 ranges.join("; ")
             ));
         }
-        if let Some(d) = response.drift.as_ref().and_then(|d| d.check.as_ref()) {
-            if d.p.is_some_and(|p| p < 0.05) {
+        if let Some(d) = response.drift.as_ref().and_then(|d| d.check.as_ref())
+            && d.p.is_some_and(|p| p < 0.05) {
                 out.push(format!(
                     "{}: the nominal runs drifted by {} per run (p = {}){}.",
                     response.name,
@@ -313,9 +313,8 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
                     }
                 ));
             }
-        }
-        if let Some(c) = &response.curvature {
-            if c.p.is_some_and(|p| p < 0.05) {
+        if let Some(c) = &response.curvature
+            && c.p.is_some_and(|p| p < 0.05) {
                 out.push(format!(
                     "{}: the nominal runs differ significantly from the mean of the two-level runs (curvature {}, p = {}): the response is not linear between the levels.",
                     response.name,
@@ -323,7 +322,6 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
                     fixed(c.p.unwrap_or(f64::NAN), 3)
                 ));
             }
-        }
         if let Some(u) = &response.uncertainty {
             out.push(format!(
                 "{}: the routine variation of {} contributes a combined standard uncertainty of {}{}.",

@@ -144,6 +144,7 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
         .map(|n| n.to_string_lossy().to_string())
         .unwrap_or_else(|| "report".into());
     std::fs::create_dir_all(&parent).map_err(|e| ReportError::write(&parent, e))?;
+    remove_leftovers(&parent, &name);
     let staging = parent.join(format!(".{name}.partial-{}", std::process::id()));
     let result = (|| {
         if staging.exists() {
@@ -168,6 +169,21 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
         let _ = std::fs::remove_dir_all(&staging);
     }
     result.map(|()| dest)
+}
+
+/// Removes staging folders a killed run left behind (`.<name>.partial-*`, `.<name>.old-*`),
+/// so they never accumulate; the report folder itself is never touched here.
+fn remove_leftovers(parent: &Path, name: &str) {
+    let Ok(entries) = std::fs::read_dir(parent) else { return };
+    for entry in entries.flatten() {
+        let file = entry.file_name().to_string_lossy().to_string();
+        let ours = [".partial-", ".no-packages-", ".old-"]
+            .iter()
+            .any(|tag| file.starts_with(&format!(".{name}{tag}")));
+        if ours && entry.path().is_dir() {
+            let _ = std::fs::remove_dir_all(entry.path());
+        }
+    }
 }
 
 /// Moves `staging` to `dest`, replacing an existing report only after the new one is complete.

@@ -133,7 +133,7 @@ pub fn days_in_month(year: u32, month: u32) -> u32 {
     match month {
         1 | 3 | 5 | 7 | 8 | 10 | 12 => 31,
         4 | 6 | 9 | 11 => 30,
-        2 if (year % 4 == 0 && year % 100 != 0) || year % 400 == 0 => 29,
+        2 if (year.is_multiple_of(4) && !year.is_multiple_of(100)) || year.is_multiple_of(400) => 29,
         2 => 28,
         _ => 0,
     }
@@ -563,24 +563,22 @@ fn fractional(
             }
         }
     };
-    if let (Some(wanted), Some(got)) = (spec.resolution, built.resolution) {
-        if got < wanted && spec.generators.is_some() {
+    if let (Some(wanted), Some(got)) = (spec.resolution, built.resolution)
+        && got < wanted && spec.generators.is_some() {
             c.report(
                 &at.key("resolution"),
                 format!("the generators give resolution {got}, below the {wanted} asked for"),
                 Some("expected generators whose shortest defining word is long enough, or a lower resolution".into()),
             );
         }
-    }
-    if let Some(n) = count {
-        if spec.generators.is_some() && n != built.runs() {
+    if let Some(n) = count
+        && spec.generators.is_some() && n != built.runs() {
             c.report(
                 &at.key("runs"),
                 format!("the generators give {} runs, not {n}", built.runs()),
                 Some(format!("expected runs: {} or no `runs`", built.runs())),
             );
         }
-    }
     if request.foldover && built.resolution != Some(3) {
         c.report(
             &at.key("foldover"),
@@ -632,15 +630,14 @@ fn explicit_runs(
             );
         }
         let order = row.get("order").and_then(Value::as_u64).map(|o| o as usize);
-        if let Some(o) = order {
-            if !orders.insert(o) {
+        if let Some(o) = order
+            && !orders.insert(o) {
                 c.report(
                     &here.key("order"),
                     format!("run order {o} is given twice"),
                     Some("expected each position in the run order once".into()),
                 );
             }
-        }
         for key in row.keys() {
             if key != "run" && key != "order" && !ids.contains(&key.as_str()) {
                 let hint = closest(key, ids.iter().copied())
@@ -826,15 +823,14 @@ fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> 
                 basis: a.basis.clone(),
             });
         }
-        if let (Some(min), Some(max)) = (a.min, a.max) {
-            if min >= max {
+        if let (Some(min), Some(max)) = (a.min, a.max)
+            && min >= max {
                 c.report(
                     &at.key("min"),
                     format!("min ({min}) is not below max ({max})"),
                     Some("expected min < max".into()),
                 );
             }
-        }
         if a.min.is_some() || a.max.is_some() {
             suitability.push(SuitabilityLimit {
                 response,

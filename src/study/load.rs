@@ -199,11 +199,10 @@ fn strip_position_prefix(message: &str) -> String {
         Some(i) if m[i..].contains("column") => &m[..i],
         _ => m,
     };
-    if let Some(rest) = m.strip_prefix("line ") {
-        if let Some((_, after)) = rest.split_once(": ") {
+    if let Some(rest) = m.strip_prefix("line ")
+        && let Some((_, after)) = rest.split_once(": ") {
             return after.to_string();
         }
-    }
     m.to_string()
 }
 
@@ -232,7 +231,7 @@ fn yaml_problem(message: &str, scalar: Option<&str>) -> (String, Option<String>)
             Some("expected a plain decimal number such as 16, 0.5 or 1000 (no hexadecimal, no `_` separators, no units)".into()),
         )
     } else if lower.contains("unknown field") {
-        (message.replace('`', "`"), None)
+        (message.to_string(), None)
     } else {
         (format!("invalid YAML: {message}"), None)
     }

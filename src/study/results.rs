@@ -221,8 +221,8 @@ fn inline_rows(
         let mut values = Vec::new();
         for id in &ids {
             let field = here.key(id);
-            if let Some(Value::Array(items)) = entry.get(*id) {
-                if items.len() != declared {
+            if let Some(Value::Array(items)) = entry.get(*id)
+                && items.len() != declared {
                     problems.push(study.diagnostic(
                         &field,
                         format!("run `{run}` lists {} determinations of `{id}`", items.len()),
@@ -235,7 +235,6 @@ fn inline_rows(
                     values.push(Vec::new());
                     continue;
                 }
-            }
             let vals: Option<Vec<f64>> = match entry.get(*id) {
                 Some(Value::Number(n)) => n.as_f64().map(|v| vec![v]),
                 Some(Value::Array(items)) => items.iter().map(Value::as_f64).collect(),
