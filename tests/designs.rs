@@ -199,3 +199,23 @@ fn a_folded_over_resolution_three_design_has_resolution_four() {
     let sheet = plateau(&["design"]).arg_path(&dir.path().join("study.yaml")).ok().stdout;
     assert_eq!(sheet.lines().count(), 17, "16 runs and the header");
 }
+
+#[test]
+fn an_interaction_listed_under_figures_gets_its_plot() {
+    let dir = tempfile::tempdir().unwrap();
+    for f in ["study.yaml", "results.csv"] {
+        std::fs::copy(example(&format!("gc-ethanol-fractional/{f}")), dir.path().join(f)).unwrap();
+    }
+    let study = dir.path().join("study.yaml");
+    let mut text = std::fs::read_to_string(&study).unwrap();
+    text.push_str("figures:\n  interactions: [\"flow*split\"]\n");
+    std::fs::write(&study, text).unwrap();
+    plateau(&["report", "--no-pdf"]).arg_path(&study).ok();
+    let svg = dir.path().join("study-report/interaction-ethanol-flow-split.svg");
+    assert!(std::fs::read_to_string(svg).unwrap().starts_with("<svg"));
+    // A term that is not a two-factor interaction is refused with its field.
+    let bad = std::fs::read_to_string(&study).unwrap().replace("flow*split", "flow");
+    std::fs::write(&study, bad).unwrap();
+    let run = plateau(&["check"]).arg_path(&study).code(1);
+    assert!(run.stderr.contains("figures.interactions[0]"), "{}", run.stderr);
+}

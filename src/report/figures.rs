@@ -413,7 +413,9 @@ fn main_effects_figure(
 }
 
 /// Two-factor interactions worth a picture: estimable (no other term of the orders shown
-/// shares the column, so the picture is of this interaction alone) and relevant.
+/// shares the column, so the picture is of this interaction alone) and relevant or
+/// significant, or listed under `figures.interactions` in the study (then an alias chain, if
+/// any, is named on the figure).
 fn interaction_figures(
     evaluated: &Evaluated,
     response: &ResponseAnalysis,
@@ -423,7 +425,21 @@ fn interaction_figures(
     let design = &evaluated.design;
     let mut out = Vec::new();
     for e in &response.effects {
-        if e.order != 2 || !e.estimable || e.dummy || e.relevant != Some(true) {
+        let mask = e
+            .factors
+            .iter()
+            .filter_map(|id| study.factors.iter().position(|f| &f.id == id))
+            .fold(0u64, |m, i| m | 1u64 << i);
+        let listed = study.figure_interactions.contains(&mask)
+            || e.aliases.iter().any(|chain| {
+                let m = chain
+                    .iter()
+                    .filter_map(|id| study.factors.iter().position(|f| &f.id == id))
+                    .fold(0u64, |m, i| m | 1u64 << i);
+                study.figure_interactions.contains(&m)
+            });
+        let notable = e.relevant == Some(true) || e.significant == Some(true);
+        if e.order != 2 || e.dummy || !(listed || (e.estimable && notable)) {
             continue;
         }
         let index = |id: &str| study.factors.iter().position(|f| f.id == id);
@@ -451,7 +467,9 @@ fn interaction_figures(
         if !complete {
             continue;
         }
-        let note = if design.complete_factorial {
+        let note = if !e.estimable {
+            format!("aliased: this column estimates {}", e.label)
+        } else if design.complete_factorial {
             "full factorial: no other term shares this column".to_string()
         } else {
             format!(

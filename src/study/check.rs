@@ -92,6 +92,20 @@ pub fn study(
         return Err(c.problems.sorted());
     }
     let source = file.study.source.unwrap_or(model::SourceKind::Validation);
+    let factor_ids: Vec<&str> = file.factors.iter().map(|f| f.id.as_str()).collect();
+    let mut figure_interactions = Vec::new();
+    let mut problems = Diagnostics::default();
+    for (i, t) in file.figures.iter().flat_map(|f| f.interactions.iter()).enumerate() {
+        let at = FieldPath::of(&["figures", "interactions"]).index(i);
+        match parse_term(t, &factor_ids) {
+            Ok(mask) if mask.count_ones() == 2 => figure_interactions.push(mask),
+            Ok(_) => problems.push(Diagnostic::field(file_name, &at, format!("`{t}` is not a two-factor interaction"), Some("expected two factor ids joined by ×, e.g. temp×ph".to_string())).at(Locator::new(text).value(&at.0))),
+            Err(e) => problems.push(Diagnostic::field(file_name, &at, e, Some(format!("expected two factor ids joined by ×, from: {}", factor_ids.join(", ")))).at(Locator::new(text).value(&at.0))),
+        }
+    }
+    if !problems.is_empty() {
+        return Err(problems);
+    }
     Ok(Study {
         path: path.to_path_buf(),
         file_name: file_name.to_string(),
@@ -107,6 +121,7 @@ pub fn study(
         excluded,
         source,
         report: file.report.unwrap_or_default(),
+        figure_interactions,
         results: file.results,
         notes: file.notes,
     })

@@ -58,6 +58,8 @@ pub struct Study {
     pub source: model::SourceKind,
     /// Dossier numbering and document frame.
     pub report: model::ReportSpec,
+    /// Two-factor interactions to plot in any case (term masks).
+    pub figure_interactions: Vec<u64>,
     /// Where the results come from (`None` while the study is being planned).
     pub results: Option<model::ResultsSpec>,
     /// Analyst notes.

@@ -35,9 +35,21 @@ pub struct StudyFile {
     /// How the chapter fits the laboratory's dossier.
     #[serde(default)]
     pub report: Option<ReportSpec>,
+    /// Extra figures.
+    #[serde(default)]
+    pub figures: Option<FiguresSpec>,
     /// Free text by the analyst; printed literally in the report.
     #[serde(default)]
     pub notes: Option<String>,
+}
+
+/// The `figures` section.
+#[derive(Debug, Clone, Default, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct FiguresSpec {
+    /// Two-factor interactions to plot in any case, e.g. `temp×ph`.
+    #[serde(default)]
+    pub interactions: Vec<String>,
 }
 
 /// The `report` section: dossier numbering and the laboratory's document frame.
