@@ -825,10 +825,15 @@ fn least_squares(design: &Design, rows: &[&[i8]], y: &[f64]) -> (BTreeMap<TermMa
             kept = trial;
         }
     }
+    // Normal equations by Cholesky: XᵀX of a two-level design is well conditioned, and this
+    // avoids an SVD solve that returned wrong coefficients for some tall ±1 matrices.
     let x = matrix(&kept);
     let yv = nalgebra::DVector::from_column_slice(y);
+    let xtx = x.transpose() * &x;
+    let xty = x.transpose() * yv;
     let mut out = BTreeMap::new();
-    if let Ok(b) = x.svd(true, true).solve(&yv, 1e-12) {
+    if let Some(chol) = xtx.cholesky() {
+        let b = chol.solve(&xty);
         for (j, t) in kept.iter().enumerate() {
             out.insert(*t, 2.0 * b[j + 1]);
         }
