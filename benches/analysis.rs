@@ -112,7 +112,12 @@ fn write_study(dir: &Path, k: usize, design_yaml: &str, runs: usize) -> PathBuf 
         "schema: 1\nstudy:\n  id: BENCH-1\n  title: Generated study for timing\n  method: BENCH-0001 version 1\n  analyst: Bench\n  date: 2026-01-01\nfactors:\n",
     );
     for j in 0..k {
-        let _ = writeln!(yaml, "  - {{ id: f{}, name: Factor {}, nominal: 10, delta: 1 }}", j + 1, j + 1);
+        let _ = writeln!(
+            yaml,
+            "  - {{ id: f{}, name: Factor {}, nominal: 10, delta: 1 }}",
+            j + 1,
+            j + 1
+        );
     }
     let _ = write!(
         yaml,
@@ -121,7 +126,10 @@ acceptance:\n  - response: content\n    effect-limit: 2.0\n  - response: content
 results:\n  file: results.csv\n"
     );
     let mut csv = String::from("run,content\n");
-    for (i, v) in invented_response(runs, k, 0x5eed + k as u64).iter().enumerate() {
+    for (i, v) in invented_response(runs, k, 0x5eed + k as u64)
+        .iter()
+        .enumerate()
+    {
         let _ = writeln!(csv, "{},{v:.3}", i + 1);
     }
     let path = dir.join("study.yaml");
@@ -138,7 +146,10 @@ fn load_all(path: &Path) -> (Study, Design, Measurements) {
 }
 
 fn main() {
-    let filter: Vec<String> = std::env::args().skip(1).filter(|a| !a.starts_with("--")).collect();
+    let filter: Vec<String> = std::env::args()
+        .skip(1)
+        .filter(|a| !a.starts_with("--"))
+        .collect();
     let budget_ms = std::env::var("PLATEAU_BENCH_BUDGET_MS")
         .ok()
         .and_then(|v| v.parse().ok())
@@ -155,13 +166,19 @@ fn main() {
     for k in 3..=16usize {
         let n = 1usize << k;
         let y = invented_response(n, k, 7 + k as u64);
-        bench.case(&format!("effects/fwht-all/2^{k}"), n, || effects::all_effects_fwht(black_box(&y)));
+        bench.case(&format!("effects/fwht-all/2^{k}"), n, || {
+            effects::all_effects_fwht(black_box(&y))
+        });
     }
     for k in [8usize, 12, 16] {
         let n = 1usize << k;
         let y = invented_response(n, k, 7 + k as u64);
         let coded: Vec<Vec<i8>> = (0..n)
-            .map(|i| (0..k).map(|j| if i >> j & 1 == 1 { 1 } else { -1 }).collect())
+            .map(|i| {
+                (0..k)
+                    .map(|j| if i >> j & 1 == 1 { 1 } else { -1 })
+                    .collect()
+            })
             .collect();
         let rows: Vec<&[i8]> = coded.iter().map(Vec::as_slice).collect();
         let terms: Vec<TermMask> = (1..(1u64 << k)).filter(|m| m.count_ones() <= 2).collect();
@@ -181,23 +198,38 @@ fn main() {
         std::fs::create_dir_all(&dir).unwrap();
         let path = write_study(&dir, k, "  kind: full-factorial\n", 1 << k);
         let (s, d, m) = load_all(&path);
-        bench.case(&name, d.runs.len(), || analysis::analyse(&s, &d, &m).unwrap());
+        bench.case(&name, d.runs.len(), || {
+            analysis::analyse(&s, &d, &m).unwrap()
+        });
     }
 
     // (b) A 48-run Plackett–Burman: 40 factors and 7 dummy columns.
     {
         let dir = tmp.path().join("pb48");
         std::fs::create_dir_all(&dir).unwrap();
-        let path = write_study(&dir, 40, "  kind: plackett-burman\n  runs: 48\n  dummies: 7\n", 48);
+        let path = write_study(
+            &dir,
+            40,
+            "  kind: plackett-burman\n  runs: 48\n  dummies: 7\n",
+            48,
+        );
         if bench.wants("analyse/plackett-burman/48") || bench.wants("evaluate/plackett-burman/48") {
             let (s, d, m) = load_all(&path);
-            bench.case("analyse/plackett-burman/48", d.runs.len(), || analysis::analyse(&s, &d, &m).unwrap());
+            bench.case("analyse/plackett-burman/48", d.runs.len(), || {
+                analysis::analyse(&s, &d, &m).unwrap()
+            });
         }
-        bench.case("evaluate/plackett-burman/48", 48, || pipeline::evaluate(&path).unwrap());
-        bench.case("stage/load/plackett-burman/48", 48, || study::load(&path).unwrap());
+        bench.case("evaluate/plackett-burman/48", 48, || {
+            pipeline::evaluate(&path).unwrap()
+        });
+        bench.case("stage/load/plackett-burman/48", 48, || {
+            study::load(&path).unwrap()
+        });
         if bench.wants("stage/plan/plackett-burman/48") {
             let s = study::load(&path).unwrap();
-            bench.case("stage/plan/plackett-burman/48", 48, || design::plan(&s).unwrap());
+            bench.case("stage/plan/plackett-burman/48", 48, || {
+                design::plan(&s).unwrap()
+            });
         }
     }
 
@@ -205,20 +237,32 @@ fn main() {
     let example = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("examples/hplc-assay/study.yaml");
     if bench.wants("evaluate/example/hplc-assay") {
         let runs = pipeline::evaluate(&example).unwrap().design.runs.len();
-        bench.case("evaluate/example/hplc-assay", runs, || pipeline::evaluate(&example).unwrap());
+        bench.case("evaluate/example/hplc-assay", runs, || {
+            pipeline::evaluate(&example).unwrap()
+        });
     }
     // The same stages for the largest full factorial, to show where the time goes.
     {
         let dir = tmp.path().join("ff16-evaluate");
         std::fs::create_dir_all(&dir).unwrap();
         let path = write_study(&dir, 16, "  kind: full-factorial\n", 1 << 16);
-        bench.case("evaluate/full-factorial/2^16", 1 << 16, || pipeline::evaluate(&path).unwrap());
-        bench.case("stage/load/full-factorial/2^16", 1 << 16, || study::load(&path).unwrap());
-        if bench.wants("stage/plan/full-factorial/2^16") || bench.wants("stage/read/full-factorial/2^16") {
+        bench.case("evaluate/full-factorial/2^16", 1 << 16, || {
+            pipeline::evaluate(&path).unwrap()
+        });
+        bench.case("stage/load/full-factorial/2^16", 1 << 16, || {
+            study::load(&path).unwrap()
+        });
+        if bench.wants("stage/plan/full-factorial/2^16")
+            || bench.wants("stage/read/full-factorial/2^16")
+        {
             let s = study::load(&path).unwrap();
-            bench.case("stage/plan/full-factorial/2^16", 1 << 16, || design::plan(&s).unwrap());
+            bench.case("stage/plan/full-factorial/2^16", 1 << 16, || {
+                design::plan(&s).unwrap()
+            });
             let d = design::plan(&s).unwrap();
-            bench.case("stage/read/full-factorial/2^16", 1 << 16, || results::read(&s, &d).unwrap());
+            bench.case("stage/read/full-factorial/2^16", 1 << 16, || {
+                results::read(&s, &d).unwrap()
+            });
         }
     }
 }

@@ -39,7 +39,11 @@ fn column(rows: &[Vec<i8>], term: u64) -> Vec<f64> {
 /// The 2^k runs in standard order (first factor alternating fastest).
 fn full_factorial(k: usize) -> Vec<Vec<i8>> {
     (0..1usize << k)
-        .map(|i| (0..k).map(|j| if i >> j & 1 == 1 { 1 } else { -1 }).collect())
+        .map(|i| {
+            (0..k)
+                .map(|j| if i >> j & 1 == 1 { 1 } else { -1 })
+                .collect()
+        })
         .collect()
 }
 
@@ -48,7 +52,9 @@ fn full_factorial(k: usize) -> Vec<Vec<i8>> {
 fn least_squares(rows: &[Vec<i8>], y: &[f64], terms: &[u64]) -> Option<Vec<f64>> {
     let n = rows.len();
     let cols: Vec<Vec<f64>> = terms.iter().map(|&t| column(rows, t)).collect();
-    let x = DMatrix::from_fn(n, terms.len() + 1, |i, j| if j == 0 { 1.0 } else { cols[j - 1][i] });
+    let x = DMatrix::from_fn(n, terms.len() + 1, |i, j| {
+        if j == 0 { 1.0 } else { cols[j - 1][i] }
+    });
     let qr = x.qr();
     let (q, r) = (qr.q(), qr.r());
     if (0..r.ncols()).any(|j| r[(j, j)].abs() < 1e-9) {
@@ -61,7 +67,12 @@ fn least_squares(rows: &[Vec<i8>], y: &[f64], terms: &[u64]) -> Option<Vec<f64>>
 
 /// Display order of terms: by order, then by the list of factor indices.
 fn sort_terms(terms: &mut [u64]) {
-    let key = |t: &u64| (t.count_ones(), (0..64).filter(|j| t >> j & 1 == 1).collect::<Vec<u64>>());
+    let key = |t: &u64| {
+        (
+            t.count_ones(),
+            (0..64).filter(|j| t >> j & 1 == 1).collect::<Vec<u64>>(),
+        )
+    };
     terms.sort_by_key(key);
 }
 
@@ -95,7 +106,9 @@ fn estimable_in_order(rows: &[Vec<i8>], terms: &[u64]) -> Vec<u64> {
 fn shuffled(n: usize, mut seed: u64) -> Vec<usize> {
     let mut v: Vec<usize> = (0..n).collect();
     for i in (1..n).rev() {
-        seed = seed.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+        seed = seed
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
         v.swap(i, (seed >> 33) as usize % (i + 1));
     }
     v
@@ -114,7 +127,13 @@ fn write_full_factorial_study(
         "schema: 1\nstudy:\n  id: PROP-1\n  title: Generated study\n  method: PROP-0001 version 1\n  analyst: Test\n  date: 2026-01-01\nfactors:\n",
     );
     for j in 0..k {
-        writeln!(yaml, "  - {{ id: f{}, name: Factor {}, nominal: 10, delta: 1 }}", j + 1, j + 1).unwrap();
+        writeln!(
+            yaml,
+            "  - {{ id: f{}, name: Factor {}, nominal: 10, delta: 1 }}",
+            j + 1,
+            j + 1
+        )
+        .unwrap();
     }
     write!(
         yaml,
@@ -124,7 +143,12 @@ fn write_full_factorial_study(
     if !excluded.is_empty() {
         yaml.push_str("excluded:\n");
         for i in excluded {
-            writeln!(yaml, "  - {{ run: {}, reason: generated exclusion }}", i + 1).unwrap();
+            writeln!(
+                yaml,
+                "  - {{ run: {}, reason: generated exclusion }}",
+                i + 1
+            )
+            .unwrap();
         }
     }
     let mut csv = String::from("run,content\n");

@@ -5,14 +5,18 @@
 //! and the fast Walsh–Hadamard transform for a complete 2^k in standard order, which gives all
 //! 2^k − 1 effects in O(N log N) (Yates 1937's algorithm is the same butterfly).
 
-use crate::design::{TermMask, term_factors};
+use crate::design::TermMask;
 
 /// The ±1 value of a term's column in one run (0 when any factor sits at its nominal level).
 pub fn column_value(coded: &[i8], term: TermMask) -> i8 {
-    term_factors(term)
-        .iter()
-        .map(|&j| coded.get(j).copied().unwrap_or(0))
-        .product()
+    // Walks the set bits directly: this runs once per run and term, so no allocation here.
+    let mut value = 1i8;
+    let mut rest = term;
+    while rest != 0 {
+        value *= coded.get(rest.trailing_zeros() as usize).copied().unwrap_or(0);
+        rest &= rest - 1;
+    }
+    value
 }
 
 /// E = ȳ(+) − ȳ(−) of one contrast over two-level runs (`coded` levels, `y` run means).

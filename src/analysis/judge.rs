@@ -449,11 +449,14 @@ pub fn analyse_response(
         None // the uncertainty budget is for results; suitability responses set limits instead
     };
 
-    let run_values = design
-        .runs_in_order()
+    // Indices sorted by run order, so each run's values are found without a search (a search
+    // per run made this step quadratic: seconds for a 2^15 design).
+    let mut in_order: Vec<(usize, &crate::design::PlannedRun)> =
+        design.runs.iter().enumerate().collect();
+    in_order.sort_by_key(|(_, run)| run.order);
+    let run_values = in_order
         .into_iter()
-        .map(|run| {
-            let i = design.runs.iter().position(|x| x.id == run.id).unwrap_or(0);
+        .map(|(i, run)| {
             RunValue {
                 run: run.id.0.clone(),
                 order: run.order,
