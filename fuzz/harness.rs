@@ -77,11 +77,21 @@ pub fn study_loader(data: &[u8]) -> Reached {
     if plateau::study::load::parse(text, "study.yaml").is_err() {
         return Reached::Nothing;
     }
-    let Some(scratch) = Scratch::new("load") else { return Reached::Parsed };
-    let Some(path) = scratch.write("study.yaml", data) else { return Reached::Parsed };
-    let Ok(study) = plateau::study::load(&path) else { return Reached::Parsed };
-    let Ok(design) = plateau::design::plan(&study) else { return Reached::Loaded };
-    let Ok(values) = results::read(&study, &design) else { return Reached::Planned };
+    let Some(scratch) = Scratch::new("load") else {
+        return Reached::Parsed;
+    };
+    let Some(path) = scratch.write("study.yaml", data) else {
+        return Reached::Parsed;
+    };
+    let Ok(study) = plateau::study::load(&path) else {
+        return Reached::Parsed;
+    };
+    let Ok(design) = plateau::design::plan(&study) else {
+        return Reached::Loaded;
+    };
+    let Ok(values) = results::read(&study, &design) else {
+        return Reached::Planned;
+    };
     match plateau::analysis::analyse(&study, &design, &values) {
         Ok(_) => Reached::Analysed,
         Err(_) => Reached::Read,
@@ -92,23 +102,45 @@ pub fn study_loader(data: &[u8]) -> Reached {
 /// 8 + 3 runs, responses `assay` and `resolution`, results in `results.csv`).
 const CSV_STUDY: &str = include_str!("../examples/hplc-assay/study.yaml");
 
+/// The planned HPLC study, its folder kept for the thread's life: planning it once instead of
+/// per input makes the CSV reader, not the YAML parser, the code under test.
+struct CsvFixture {
+    scratch: Scratch,
+    study: plateau::study::Study,
+    design: plateau::design::Design,
+}
+
+thread_local! {
+    static CSV_FIXTURE: std::cell::RefCell<Option<CsvFixture>> = const { std::cell::RefCell::new(None) };
+}
+
+fn csv_fixture() -> CsvFixture {
+    let scratch = Scratch::new("csv").unwrap_or_else(|| panic!("cannot create a scratch folder"));
+    let path = scratch
+        .write("study.yaml", CSV_STUDY.as_bytes())
+        .unwrap_or_else(|| panic!("cannot write the fixed study"));
+    // The example study is valid; failing to plan it is a harness bug, not a finding.
+    let (study, design) = plateau::pipeline::plan(&path)
+        .unwrap_or_else(|e| panic!("the fixed example study no longer plans: {e:?}"));
+    CsvFixture { scratch, study, design }
+}
+
 /// Results CSV reader: the HPLC example study with arbitrary bytes as its `results.csv`, then
 /// `results::read` and, when the file is accepted, the analysis.
 pub fn results_csv(data: &[u8]) -> Reached {
-    let Some(scratch) = Scratch::new("csv") else { return Reached::Nothing };
-    let Some(path) = scratch.write("study.yaml", CSV_STUDY.as_bytes()) else { return Reached::Nothing };
-    if scratch.write("results.csv", data).is_none() {
-        return Reached::Nothing;
-    }
-    let Ok((study, design)) = plateau::pipeline::plan(&path) else {
-        // The example study is valid; failing to plan it is a harness bug, not a finding.
-        panic!("the fixed example study no longer plans");
-    };
-    let Ok(values) = results::read(&study, &design) else { return Reached::Planned };
-    match plateau::analysis::analyse(&study, &design, &values) {
-        Ok(_) => Reached::Analysed,
-        Err(_) => Reached::Read,
-    }
+    CSV_FIXTURE.with(|cell| {
+        let mut slot = cell.borrow_mut();
+        let fixture = slot.get_or_insert_with(csv_fixture);
+        if fixture.scratch.write("results.csv", data).is_none() {
+            return Reached::Nothing;
+        }
+        let (study, design) = (&fixture.study, &fixture.design);
+        let Ok(values) = results::read(study, design) else { return Reached::Planned };
+        match plateau::analysis::analyse(study, design, &values) {
+            Ok(_) => Reached::Analysed,
+            Err(_) => Reached::Read,
+        }
+    })
 }
 
 /// Analysis: a small valid study derived from the bytes (2–5 factors, a design kind, nominal
@@ -117,17 +149,25 @@ pub fn results_csv(data: &[u8]) -> Reached {
 pub fn analysis(data: &[u8]) -> Reached {
     let mut input = Input::new(data);
     let spec = StudySpec::derive(&mut input);
-    let Some(scratch) = Scratch::new("analysis") else { return Reached::Nothing };
+    let Some(scratch) = Scratch::new("analysis") else {
+        return Reached::Nothing;
+    };
     // First the plan alone, to learn the run ids the results must name.
     let Some(path) = scratch.write("study.yaml", spec.yaml(None).as_bytes()) else {
         return Reached::Nothing;
     };
-    let Ok((_, design)) = plateau::pipeline::plan(&path) else { return Reached::Nothing };
+    let Ok((_, design)) = plateau::pipeline::plan(&path) else {
+        return Reached::Nothing;
+    };
     let ids: Vec<String> = design.runs.iter().map(|r| r.id.0.clone()).collect();
     let values = spec.values(&mut input, ids.len());
     let text = spec.yaml(Some((&ids, &values)));
-    let Some(path) = scratch.write("study.yaml", text.as_bytes()) else { return Reached::Planned };
-    let Ok(evaluated) = plateau::pipeline::evaluate(&path) else { return Reached::Planned };
+    let Some(path) = scratch.write("study.yaml", text.as_bytes()) else {
+        return Reached::Planned;
+    };
+    let Ok(evaluated) = plateau::pipeline::evaluate(&path) else {
+        return Reached::Planned;
+    };
     match report::render_files(&evaluated, &report::Options::default()) {
         Ok(_) => Reached::Rendered,
         Err(_) => Reached::Analysed,
@@ -259,7 +299,11 @@ impl StudySpec {
                     let low = f64::from(input.byte()) - 100.0;
                     let width = 1.0 + f64::from(input.byte());
                     let nominal = low + width * f64::from(input.below(5)) / 4.0;
-                    FactorLevels::LowHigh { nominal, low, high: low + width }
+                    FactorLevels::LowHigh {
+                        nominal,
+                        low,
+                        high: low + width,
+                    }
                 }
                 _ => FactorLevels::Delta {
                     nominal: f64::from(input.byte()) * input.scale(),
@@ -283,7 +327,11 @@ impl StudySpec {
         let placement = input.below(6);
         let drift = input.below(3);
         let foldover = input.below(4) == 0;
-        let drop_rows = if input.below(4) == 0 { u32::from(input.byte()) } else { 0 };
+        let drop_rows = if input.below(4) == 0 {
+            u32::from(input.byte())
+        } else {
+            0
+        };
         let explicit_nominal = input.below(3);
         let nonorthogonal = input.flag();
         let n_responses = 1 + usize::from(input.below(2));
@@ -373,7 +421,11 @@ impl StudySpec {
             let _ = match f {
                 FactorLevels::Categorical => write!(y, ", levels: [lot {id} a, lot {id} b]"),
                 FactorLevels::Delta { nominal, delta } => {
-                    write!(y, ", unit: u, nominal: {nominal:?}, delta: {delta:?}, routine: {:?}", delta / 2.0)
+                    write!(
+                        y,
+                        ", unit: u, nominal: {nominal:?}, delta: {delta:?}, routine: {:?}",
+                        delta / 2.0
+                    )
                 }
                 FactorLevels::LowHigh { nominal, low, high } => {
                     write!(y, ", nominal: {nominal:?}, low: {low:?}, high: {high:?}")
@@ -445,7 +497,14 @@ impl StudySpec {
         if let Some(seed) = self.seed {
             let _ = writeln!(y, "  randomize: {{ seed: {seed} }}");
         }
-        let placement = ["spread", "first", "last", "random", "{ every: 4 }", "spread"];
+        let placement = [
+            "spread",
+            "first",
+            "last",
+            "random",
+            "{ every: 4 }",
+            "spread",
+        ];
         if let Some(p) = placement.get(usize::from(self.placement)) {
             let _ = writeln!(y, "  nominal-runs: {p}");
         }
@@ -489,9 +548,17 @@ impl StudySpec {
                 Rule::Anova => write!(y, "significance: {{ method: anova }}"),
                 Rule::Negligible => {
                     let all: Vec<String> = (0..k).map(Self::factor_id).collect();
-                    write!(y, "significance: {{ method: negligible, terms: [\"{}\"] }}", all.join("×"))
+                    write!(
+                        y,
+                        "significance: {{ method: negligible, terms: [\"{}\"] }}",
+                        all.join("×")
+                    )
                 }
-                Rule::Precision { s, df, determinations } => write!(
+                Rule::Precision {
+                    s,
+                    df,
+                    determinations,
+                } => write!(
                     y,
                     "significance: {{ method: precision, s: {s:?}, df: {df:?}, source: fuzz, determinations: {determinations} }}"
                 ),
@@ -513,7 +580,10 @@ impl StudySpec {
         }
         if let (Some(e), Some((ids, _))) = (self.exclude, results) {
             if let Some(run) = ids.get(usize::from(e) % ids.len().max(1)) {
-                let _ = writeln!(y, "excluded:\n  - {{ run: {run}, reason: fuzzed exclusion }}");
+                let _ = writeln!(
+                    y,
+                    "excluded:\n  - {{ run: {run}, reason: fuzzed exclusion }}"
+                );
             }
         }
         if let Some((ids, values)) = results {
@@ -556,7 +626,11 @@ impl StudySpec {
         } else if self.fractional & 4 != 0 {
             let _ = writeln!(y, "  resolution: {}", 3 + (self.fractional >> 3) % 3);
         } else {
-            let _ = writeln!(y, "  runs: {}", [4, 8, 16][usize::from(self.fractional >> 3) % 3]);
+            let _ = writeln!(
+                y,
+                "  runs: {}",
+                [4, 8, 16][usize::from(self.fractional >> 3) % 3]
+            );
         }
         if self.foldover {
             y.push_str("  foldover: true\n");
@@ -579,7 +653,8 @@ impl StudySpec {
                                     (base + if run % 2 == 0 { 1.0 } else { -1.0 }) * scale
                                 }
                                 Values::Scaled => {
-                                    (f64::from(input.byte() as i8) + base * f64::from(input.below(2)))
+                                    (f64::from(input.byte() as i8)
+                                        + base * f64::from(input.below(2)))
                                         * scale
                                 }
                                 Values::Raw => input.raw_finite(),

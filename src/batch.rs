@@ -71,7 +71,11 @@ pub fn inputs(study: &Study, templates: Option<&Path>, typst_version: Option<&st
                 let lab = templates.map(|d| d.join(n)).filter(|p| p.is_file());
                 match lab {
                     Some(p) => ((*n).to_string(), file_hash(&p), "lab".to_string()),
-                    None => ((*n).to_string(), sha256_hex(text.as_bytes()), "built-in".to_string()),
+                    None => (
+                        (*n).to_string(),
+                        sha256_hex(text.as_bytes()),
+                        "built-in".to_string(),
+                    ),
                 }
             })
             .collect(),
@@ -132,7 +136,11 @@ pub fn status(
     let Ok(recorded) = serde_json::from_str::<Inputs>(&text) else {
         return Status::Stale(vec!["the input record is unreadable".into()]);
     };
-    let now = inputs(study, templates, typst_version.or(Some(recorded.typst.as_str())));
+    let now = inputs(
+        study,
+        templates,
+        typst_version.or(Some(recorded.typst.as_str())),
+    );
     let mut why = changes(&recorded, &now);
     if recorded.typst != "none" && !dir.join("report.pdf").is_file() {
         why.push("report.pdf is missing".into());
@@ -155,9 +163,7 @@ fn skipped(dir: &Path) -> bool {
 
 /// True for a YAML file that declares the study-file format (a top-level `schema:` key).
 pub fn is_study_file(path: &Path) -> bool {
-    let yaml = path
-        .extension()
-        .is_some_and(|e| e == "yaml" || e == "yml");
+    let yaml = path.extension().is_some_and(|e| e == "yaml" || e == "yml");
     yaml && std::fs::read_to_string(path)
         .map(|t| t.lines().any(|l| l.starts_with("schema:")))
         .unwrap_or(false)
@@ -178,7 +184,9 @@ pub fn discover(paths: &[PathBuf]) -> Result<Vec<PathBuf>, Diagnostics> {
 }
 
 fn walk(dir: &Path, out: &mut Vec<PathBuf>) {
-    let Ok(entries) = std::fs::read_dir(dir) else { return };
+    let Ok(entries) = std::fs::read_dir(dir) else {
+        return;
+    };
     let mut entries: Vec<PathBuf> = entries.filter_map(|e| e.ok().map(|e| e.path())).collect();
     entries.sort();
     for path in entries {

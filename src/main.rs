@@ -5,9 +5,9 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+use plateau::design::sheet;
 use plateau::pipeline;
 use plateau::report::{self, typst};
-use plateau::design::sheet;
 use plateau::study::{DesignKind, Diagnostics};
 
 const EXIT_CODES: &str = "Exit codes:
@@ -250,7 +250,12 @@ fn run(command: Command) -> Result<(), Failure> {
                 Some(_) => Some(pipeline::evaluate(&study)?),
                 None => None,
             };
-            println!("ok  {}: study {} ({})", study.display(), s.info.id, s.info.title);
+            println!(
+                "ok  {}: study {} ({})",
+                study.display(),
+                s.info.id,
+                s.info.title
+            );
             println!(
                 "ok  design: {} runs ({} two-level, {} nominal), {} estimable contrasts",
                 design.runs.len(),
@@ -264,7 +269,9 @@ fn run(command: Command) -> Result<(), Failure> {
                     evaluated.data.values.len(),
                     s.responses.len()
                 ),
-                None => println!("ok  no results yet: `plateau design` prints the run sheet to fill in"),
+                None => {
+                    println!("ok  no results yet: `plateau design` prints the run sheet to fill in")
+                }
             }
             Ok(())
         }
@@ -277,7 +284,11 @@ fn run(command: Command) -> Result<(), Failure> {
             typst: typst_path,
         } => {
             let (s, design) = pipeline::plan(&study)?;
-            let levels = if coded { sheet::Levels::Coded } else { sheet::Levels::Real };
+            let levels = if coded {
+                sheet::Levels::Coded
+            } else {
+                sheet::Levels::Real
+            };
             if let Some(out) = &output {
                 if out.exists() && !force {
                     return Err(Failure::Other(format!(
@@ -287,28 +298,37 @@ fn run(command: Command) -> Result<(), Failure> {
                 }
             }
             if pdf {
-                let out = output.as_deref().unwrap_or(std::path::Path::new("runsheet.pdf"));
+                let out = output
+                    .as_deref()
+                    .unwrap_or(std::path::Path::new("runsheet.pdf"));
                 let typst = typst::find(typst_path.as_deref())
                     .map_err(|e| Failure::Typesetter(e.to_string()))?;
-                report::runsheet::write_pdf(&s, &design, levels, &typst, out).map_err(|e| match e {
-                    report::ReportError::Typst(e) => Failure::Typesetter(e.to_string()),
-                    other => Failure::Other(other.to_string()),
-                })?;
+                report::runsheet::write_pdf(&s, &design, levels, &typst, out).map_err(
+                    |e| match e {
+                        report::ReportError::Typst(e) => Failure::Typesetter(e.to_string()),
+                        other => Failure::Other(other.to_string()),
+                    },
+                )?;
                 println!("ok  run sheet written to {}", out.display());
                 return Ok(());
             }
             let text = sheet::csv(&s, &design, levels);
             match output {
                 Some(out) => {
-                    std::fs::write(&out, text)
-                        .map_err(|e| Failure::Other(format!("failed to write {} ({e})", out.display())))?;
+                    std::fs::write(&out, text).map_err(|e| {
+                        Failure::Other(format!("failed to write {} ({e})", out.display()))
+                    })?;
                     eprintln!("ok  run sheet written to {}", out.display());
                 }
                 None => print!("{text}"),
             }
             Ok(())
         }
-        Command::New { file, kind, factors } => {
+        Command::New {
+            file,
+            kind,
+            factors,
+        } => {
             let kind = DesignKind::from(kind);
             let n = factors.unwrap_or_else(|| plateau::starter::default_factors(kind));
             let max = plateau::starter::max_factors(kind);
@@ -324,7 +344,10 @@ fn run(command: Command) -> Result<(), Failure> {
                 .open(&file)
                 .map_err(|e| {
                     if e.kind() == std::io::ErrorKind::AlreadyExists {
-                        Failure::Other(format!("{} already exists; plateau new never overwrites a file", file.display()))
+                        Failure::Other(format!(
+                            "{} already exists; plateau new never overwrites a file",
+                            file.display()
+                        ))
                     } else {
                         Failure::Other(format!("failed to create {} ({e})", file.display()))
                     }
@@ -332,7 +355,11 @@ fn run(command: Command) -> Result<(), Failure> {
             use std::io::Write;
             f.write_all(text.as_bytes())
                 .map_err(|e| Failure::Other(format!("failed to write {} ({e})", file.display())))?;
-            println!("ok  wrote {}; check it with `plateau check {}`", file.display(), file.display());
+            println!(
+                "ok  wrote {}; check it with `plateau check {}`",
+                file.display(),
+                file.display()
+            );
             Ok(())
         }
         Command::Analyze { study, json } => {
@@ -364,13 +391,17 @@ fn run(command: Command) -> Result<(), Failure> {
             }
             if output.is_some() && files.len() > 1 {
                 return Err(Failure::Usage(
-                    "-o/--output names the folder of a single study; leave it out for several".into(),
+                    "-o/--output names the folder of a single study; leave it out for several"
+                        .into(),
                 ));
             }
             let typst = if no_pdf {
                 None
             } else {
-                Some(typst::find(typst_path.as_deref()).map_err(|e| Failure::Typesetter(e.to_string()))?)
+                Some(
+                    typst::find(typst_path.as_deref())
+                        .map_err(|e| Failure::Typesetter(e.to_string()))?,
+                )
             };
             let options = report::Options {
                 out_dir: output,
@@ -418,7 +449,11 @@ fn run(command: Command) -> Result<(), Failure> {
             templates,
             typst: typst_path,
         } => {
-            let paths = if paths.is_empty() { vec![PathBuf::from(".")] } else { paths };
+            let paths = if paths.is_empty() {
+                vec![PathBuf::from(".")]
+            } else {
+                paths
+            };
             let files = plateau::batch::discover(&paths)?;
             let typst_version = typst::find(typst_path.as_deref()).ok().map(|t| t.version);
             let mut not_current = 0;
@@ -431,10 +466,21 @@ fn run(command: Command) -> Result<(), Failure> {
                     ),
                     Ok(study) => {
                         let dir = report::default_dir(file);
-                        match plateau::batch::status(&study, &dir, templates.as_deref(), typst_version.as_deref()) {
-                            plateau::batch::Status::Current => format!("current  {}", file.display()),
+                        match plateau::batch::status(
+                            &study,
+                            &dir,
+                            templates.as_deref(),
+                            typst_version.as_deref(),
+                        ) {
+                            plateau::batch::Status::Current => {
+                                format!("current  {}", file.display())
+                            }
                             plateau::batch::Status::Missing => {
-                                format!("missing  {} (no report in {})", file.display(), dir.display())
+                                format!(
+                                    "missing  {} (no report in {})",
+                                    file.display(),
+                                    dir.display()
+                                )
                             }
                             plateau::batch::Status::Stale(why) => {
                                 format!("stale    {}: {}", file.display(), why.join("; "))
@@ -465,7 +511,10 @@ fn run(command: Command) -> Result<(), Failure> {
             let typst = if json {
                 typst::find(typst_path.as_deref()).ok()
             } else {
-                Some(typst::find(typst_path.as_deref()).map_err(|e| Failure::Typesetter(e.to_string()))?)
+                Some(
+                    typst::find(typst_path.as_deref())
+                        .map_err(|e| Failure::Typesetter(e.to_string()))?,
+                )
             };
             let dir = output.unwrap_or_else(plateau::verify::default_dir);
             match plateau::verify::command(&dir, json, date, typst) {
@@ -473,7 +522,9 @@ fn run(command: Command) -> Result<(), Failure> {
                     print!("{text}");
                     Ok(())
                 }
-                Err(e @ plateau::verify::VerifyError::Typst(_)) => Err(Failure::Typesetter(e.to_string())),
+                Err(e @ plateau::verify::VerifyError::Typst(_)) => {
+                    Err(Failure::Typesetter(e.to_string()))
+                }
                 Err(e) => Err(Failure::Other(e.to_string())),
             }
         }
@@ -503,7 +554,10 @@ fn run(command: Command) -> Result<(), Failure> {
                 )));
             }
             let typesetter = if pdf {
-                Some(typst::find(typst_path.as_deref()).map_err(|e| Failure::Typesetter(e.to_string()))?)
+                Some(
+                    typst::find(typst_path.as_deref())
+                        .map_err(|e| Failure::Typesetter(e.to_string()))?,
+                )
             } else {
                 None
             };
@@ -530,14 +584,17 @@ fn run(command: Command) -> Result<(), Failure> {
                 .with_labels(old_label, new_label)
                 .with_files(old_file, new_path.display().to_string());
             if let Some(t) = typesetter {
-                let out = output.as_deref().unwrap_or(std::path::Path::new("diff.pdf"));
+                let out = output
+                    .as_deref()
+                    .unwrap_or(std::path::Path::new("diff.pdf"));
                 plateau::diff::write_pdf(&d, &t, out).map_err(|e| match e {
                     report::ReportError::Typst(e) => Failure::Typesetter(e.to_string()),
                     other => Failure::Other(other.to_string()),
                 })?;
                 println!("ok  change summary written to {}", out.display());
             } else if json {
-                let text = serde_json::to_string_pretty(&d).map_err(|e| Failure::Other(e.to_string()))?;
+                let text =
+                    serde_json::to_string_pretty(&d).map_err(|e| Failure::Other(e.to_string()))?;
                 println!("{text}");
             } else {
                 print!("{}", plateau::diff::text(&d));
@@ -547,7 +604,8 @@ fn run(command: Command) -> Result<(), Failure> {
         Command::Templates {
             action: TemplatesAction::Export { dir },
         } => {
-            let written = report::export_templates(&dir).map_err(|e| Failure::Other(e.to_string()))?;
+            let written =
+                report::export_templates(&dir).map_err(|e| Failure::Other(e.to_string()))?;
             for path in written {
                 println!("ok  wrote {}", path.display());
             }
@@ -598,7 +656,9 @@ fn run_batch(
                             (None, false) if !quiet => {
                                 println!("ok       {} → {}", file.display(), outcome.dir.display())
                             }
-                            (Some(f), _) => eprintln!("failed   {}: {}", file.display(), first_line(f)),
+                            (Some(f), _) => {
+                                eprintln!("failed   {}: {}", file.display(), first_line(f))
+                            }
                             _ => {}
                         }
                     }
@@ -646,7 +706,10 @@ fn first_line(f: &Failure) -> String {
 
 /// Reports one study unless its report is current (and `force` is not given).
 fn report_one(file: &std::path::Path, options: &report::Options, force: bool) -> Outcome {
-    let dir = options.out_dir.clone().unwrap_or_else(|| report::default_dir(file));
+    let dir = options
+        .out_dir
+        .clone()
+        .unwrap_or_else(|| report::default_dir(file));
     let fail = |f: Failure| Outcome {
         failure: Some(f),
         skipped: false,
@@ -657,8 +720,16 @@ fn report_one(file: &std::path::Path, options: &report::Options, force: bool) ->
         Err(d) => return fail(Failure::Invalid(d)),
     };
     if !force {
-        let version = options.typst.as_ref().map_or("none", |t| t.version.as_str());
-        let now = plateau::batch::status(&evaluated.study, &dir, options.templates.as_deref(), Some(version));
+        let version = options
+            .typst
+            .as_ref()
+            .map_or("none", |t| t.version.as_str());
+        let now = plateau::batch::status(
+            &evaluated.study,
+            &dir,
+            options.templates.as_deref(),
+            Some(version),
+        );
         if now == plateau::batch::Status::Current {
             return Outcome {
                 failure: None,

@@ -9,7 +9,13 @@ const PLACEHOLDERS: &[(&str, &str, &str, f64, f64)] = &[
     ("temp", "Column temperature", "°C", 35.0, 2.0),
     ("ph", "Mobile-phase pH", "", 3.0, 0.1),
     ("flow", "Flow rate", "mL/min", 1.0, 0.1),
-    ("organic", "Organic modifier in mobile phase", "% v/v", 40.0, 1.0),
+    (
+        "organic",
+        "Organic modifier in mobile phase",
+        "% v/v",
+        40.0,
+        1.0,
+    ),
     ("wavelength", "Detection wavelength", "nm", 254.0, 2.0),
     ("buffer", "Buffer concentration", "mmol/L", 25.0, 2.5),
     ("injvol", "Injection volume", "µL", 10.0, 1.0),
@@ -41,7 +47,9 @@ pub fn max_factors(kind: DesignKind) -> usize {
 pub fn text(kind: DesignKind, factors: usize) -> String {
     let mut out = String::new();
     out.push_str("# yaml-language-server: $schema=study.schema.json\n");
-    out.push_str("# A starter robustness study written by `plateau new`. Replace every placeholder.\n");
+    out.push_str(
+        "# A starter robustness study written by `plateau new`. Replace every placeholder.\n",
+    );
     out.push_str("# Editors validate against the schema: write it with `plateau schema > study.schema.json`.\n");
     out.push_str("schema: 1\n");
     out.push_str("study:\n  id: RS-0000-000          # your protocol number\n");
@@ -72,7 +80,13 @@ pub fn text(kind: DesignKind, factors: usize) -> String {
         }
         DesignKind::Explicit => {
             out.push_str("  kind: explicit            # a design planned elsewhere, in coded levels\n  runs:\n");
-            for (run, levels) in [(1, [-1, -1, 1]), (2, [1, -1, -1]), (3, [-1, 1, -1]), (4, [1, 1, 1]), (5, [0, 0, 0])] {
+            for (run, levels) in [
+                (1, [-1, -1, 1]),
+                (2, [1, -1, -1]),
+                (3, [-1, 1, -1]),
+                (4, [1, 1, 1]),
+                (5, [0, 0, 0]),
+            ] {
                 out.push_str(&format!(
                     "    - {{ run: {run}, temp: {}, ph: {}, flow: {} }}\n",
                     levels[0], levels[1], levels[2]
@@ -81,12 +95,16 @@ pub fn text(kind: DesignKind, factors: usize) -> String {
         }
     }
     if kind != DesignKind::Explicit {
-        out.push_str("  randomize: { seed: 12345 }  # a fixed seed gives the same run order every time\n");
+        out.push_str(
+            "  randomize: { seed: 12345 }  # a fixed seed gives the same run order every time\n",
+        );
     }
     out.push_str("responses:\n  - id: assay\n    name: Assay\n    unit: \"% label claim\"\n");
     out.push_str("acceptance:                # declare the criterion before the data are seen\n");
     out.push_str("  - response: assay\n    effect-limit: 2.0\n    basis: \"repeatability limit r = 2.8 s_r (placeholder, state yours)\"\n");
-    out.push_str("# results:                 # add after the runs: `plateau design` prints the run sheet\n");
+    out.push_str(
+        "# results:                 # add after the runs: `plateau design` prints the run sheet\n",
+    );
     out.push_str("#   file: results.csv\n");
     out
 }

@@ -24,11 +24,26 @@ fn dossier(dir: &Path) -> Vec<std::path::PathBuf> {
 fn a_batch_with_one_broken_study_reports_the_others_and_exits_1() {
     let dir = tempfile::tempdir().unwrap();
     let studies = dossier(dir.path());
-    std::fs::write(dir.path().join("gc-ethanol-fractional/results.csv"), "run,ethanol\n1,4.0\n").unwrap();
-    let run = plateau(&["report", "--no-pdf", "-j", "2"]).arg_path(dir.path()).code(1);
+    std::fs::write(
+        dir.path().join("gc-ethanol-fractional/results.csv"),
+        "run,ethanol\n1,4.0\n",
+    )
+    .unwrap();
+    let run = plateau(&["report", "--no-pdf", "-j", "2"])
+        .arg_path(dir.path())
+        .code(1);
     assert!(run.stderr.contains("failed   "), "{}", run.stderr);
-    assert!(run.stderr.contains("gc-ethanol-fractional"), "{}", run.stderr);
-    assert!(run.stdout.contains("3 studies: 2 written, 0 current (skipped), 1 failed"), "{}", run.stdout);
+    assert!(
+        run.stderr.contains("gc-ethanol-fractional"),
+        "{}",
+        run.stderr
+    );
+    assert!(
+        run.stdout
+            .contains("3 studies: 2 written, 0 current (skipped), 1 failed"),
+        "{}",
+        run.stdout
+    );
     for (study, expect) in studies.iter().zip([true, false, true]) {
         let report = study.parent().unwrap().join("study-report/report.typ");
         assert_eq!(report.is_file(), expect, "{}", study.display());
@@ -42,7 +57,9 @@ fn status_marks_exactly_the_edited_study_stale_and_report_makes_all_current() {
     let run = plateau(&["status"]).arg_path(dir.path()).code(1);
     assert_eq!(run.stdout.matches("missing  ").count(), 3, "{}", run.stdout);
     plateau(&["report", "--no-pdf"]).arg_path(dir.path()).ok();
-    let run = plateau(&["status", "--typst", "/nonexistent"]).arg_path(dir.path()).ok();
+    let run = plateau(&["status", "--typst", "/nonexistent"])
+        .arg_path(dir.path())
+        .ok();
     assert_eq!(run.stdout.matches("current  ").count(), 3, "{}", run.stdout);
     // Change one result of one study.
     let csv = dir.path().join("dissolution-youden/results.csv");
@@ -50,15 +67,20 @@ fn status_marks_exactly_the_edited_study_stale_and_report_makes_all_current() {
     let edited = text.replacen("\n1,", "\n1,1", 1);
     assert_ne!(text, edited);
     std::fs::write(&csv, edited).unwrap();
-    let run = plateau(&["status", "--typst", "/nonexistent"]).arg_path(dir.path()).code(1);
+    let run = plateau(&["status", "--typst", "/nonexistent"])
+        .arg_path(dir.path())
+        .code(1);
     assert_eq!(run.stdout.matches("current  ").count(), 2, "{}", run.stdout);
     assert!(
-        run.stdout.contains("dissolution-youden/study.yaml: results file results.csv changed"),
+        run.stdout
+            .contains("dissolution-youden/study.yaml: results file results.csv changed"),
         "{}",
         run.stdout
     );
     plateau(&["report", "--no-pdf"]).arg_path(dir.path()).ok();
-    plateau(&["status", "--typst", "/nonexistent"]).arg_path(dir.path()).ok();
+    plateau(&["status", "--typst", "/nonexistent"])
+        .arg_path(dir.path())
+        .ok();
 }
 
 #[test]
@@ -72,7 +94,9 @@ fn an_unchanged_study_is_skipped_unless_forced() {
     let run = plateau(&["report", "--no-pdf"]).arg_path(study).ok();
     assert!(run.stdout.contains("is current"), "{}", run.stdout);
     assert_eq!(std::fs::read_to_string(&typ).unwrap(), "tampered");
-    plateau(&["report", "--no-pdf", "--force"]).arg_path(study).ok();
+    plateau(&["report", "--no-pdf", "--force"])
+        .arg_path(study)
+        .ok();
     assert_ne!(std::fs::read_to_string(&typ).unwrap(), "tampered");
 }
 
@@ -80,5 +104,7 @@ fn an_unchanged_study_is_skipped_unless_forced() {
 fn output_folder_with_several_studies_is_a_usage_error() {
     let dir = tempfile::tempdir().unwrap();
     dossier(dir.path());
-    plateau(&["report", "--no-pdf", "-o", "x"]).arg_path(dir.path()).code(2);
+    plateau(&["report", "--no-pdf", "-o", "x"])
+        .arg_path(dir.path())
+        .code(2);
 }

@@ -10,7 +10,9 @@ fn pilot_plant_effects_of_box_hunter_hunter_come_out_of_a_yaml_study() {
     // Box, Hunter & Hunter (2005), ch. 5: T = 23.0, C = −5.0, K = 1.5, TC = 1.5, TK = 10.0,
     // CK = 0.0, TCK = 0.5 (values from memory of the book; each also follows by hand from the
     // printed yields).
-    let run = plateau(&["analyze", "--json"]).arg_path(&fixture("bhh-pilot-plant/study.yaml")).ok();
+    let run = plateau(&["analyze", "--json"])
+        .arg_path(&fixture("bhh-pilot-plant/study.yaml"))
+        .ok();
     let doc = json_of(&run.stdout);
     let effects = &doc["responses"][0]["effects"];
     let expect = [
@@ -40,7 +42,9 @@ fn pilot_plant_effects_of_box_hunter_hunter_come_out_of_a_yaml_study() {
 
 #[test]
 fn analysis_document_has_the_documented_keys() {
-    let run = plateau(&["analyze", "--json"]).arg_path(&example("hplc-assay/study.yaml")).ok();
+    let run = plateau(&["analyze", "--json"])
+        .arg_path(&example("hplc-assay/study.yaml"))
+        .ok();
     let doc = json_of(&run.stdout);
     for key in ["id", "title", "sha256"] {
         assert!(doc["study"][key].is_string(), "study.{key}");
@@ -66,7 +70,9 @@ fn analysis_document_has_the_documented_keys() {
 
 #[test]
 fn example_assay_flags_ph_as_the_only_relevant_factor() {
-    let run = plateau(&["analyze", "--json"]).arg_path(&example("hplc-assay/study.yaml")).ok();
+    let run = plateau(&["analyze", "--json"])
+        .arg_path(&example("hplc-assay/study.yaml"))
+        .ok();
     let doc = json_of(&run.stdout);
     assert_eq!(doc["non_robust_factors"], serde_json::json!(["ph"]));
     assert_eq!(doc["responses"][0]["verdict"]["robust"], false);
@@ -74,19 +80,28 @@ fn example_assay_flags_ph_as_the_only_relevant_factor() {
 
 #[test]
 fn check_prints_ok_lines_for_a_valid_study() {
-    let run = plateau(&["check"]).arg_path(&example("hplc-assay/study.yaml")).ok();
-    assert!(run.stdout.lines().all(|l| l.starts_with("ok ")), "{}", run.stdout);
+    let run = plateau(&["check"])
+        .arg_path(&example("hplc-assay/study.yaml"))
+        .ok();
+    assert!(
+        run.stdout.lines().all(|l| l.starts_with("ok ")),
+        "{}",
+        run.stdout
+    );
 }
 
 #[test]
 fn schema_command_prints_the_shipped_schema() {
     let run = plateau(&["schema"]).ok();
-    let shipped = std::fs::read_to_string(common::root().join("schemas/study.schema.json")).unwrap();
+    let shipped =
+        std::fs::read_to_string(common::root().join("schemas/study.schema.json")).unwrap();
     assert_eq!(run.stdout, shipped);
-    assert!(json_of(&run.stdout)["$schema"]
-        .as_str()
-        .unwrap()
-        .contains("2020-12"));
+    assert!(
+        json_of(&run.stdout)["$schema"]
+            .as_str()
+            .unwrap()
+            .contains("2020-12")
+    );
 }
 
 #[test]
@@ -150,7 +165,8 @@ fn a_missing_typesetter_exits_3_and_names_the_install_command() {
         .arg_path(&example("hplc-assay/study.yaml"))
         .code(3);
     assert!(
-        run.stderr.contains("cargo install --locked typst-cli@0.15.1"),
+        run.stderr
+            .contains("cargo install --locked typst-cli@0.15.1"),
         "{}",
         run.stderr
     );
@@ -197,7 +213,11 @@ fn a_failing_typesetter_keeps_the_previous_report_and_exits_3() {
         .code(3);
     assert!(run.stderr.contains("stub failure"), "{}", run.stderr);
     assert_eq!(std::fs::read(out.join("report.typ")).unwrap(), before);
-    assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 2, "only r/ and the stub");
+    assert_eq!(
+        std::fs::read_dir(dir.path()).unwrap().count(),
+        2,
+        "only r/ and the stub"
+    );
 }
 
 #[test]
@@ -215,13 +235,22 @@ fn the_example_report_pdf_shows_effects_verdicts_and_the_conclusion() {
     let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
     // Effects as computed (ph = −2.30 % label claim, −2.30 %), verdicts, conclusion, caution.
     assert!(flat.contains("−2.30"), "{flat}");
-    assert!(flat.contains("Main effects beyond the acceptance limit: ph."), "{flat}");
+    assert!(
+        flat.contains("Main effects beyond the acceptance limit: ph."),
+        "{flat}"
+    );
     assert!(
         flat.contains("Mobile-phase pH had a relevant effect of −2.30 % label claim (−2.30 %) when changed from 2.9 to 3.1"),
         "{flat}"
     );
-    assert!(flat.contains("The method is not robust to Mobile-phase pH over the tested range"), "{flat}");
-    assert!(flat.contains("must be reviewed and approved by qualified staff"), "{flat}");
+    assert!(
+        flat.contains("The method is not robust to Mobile-phase pH over the tested range"),
+        "{flat}"
+    );
+    assert!(
+        flat.contains("must be reviewed and approved by qualified staff"),
+        "{flat}"
+    );
     assert!(flat.contains("typst 0.15."), "{flat}");
 }
 
@@ -230,7 +259,8 @@ fn study_text_is_printed_literally_never_run() {
     let typst = typst_binary();
     let dir = tempfile::tempdir().unwrap();
     let original = std::fs::read_to_string(example("hplc-assay/study.yaml")).unwrap();
-    let hostile = r#"Tricky # $ * _ @ < > [ ] \ ~ / #read("/etc/passwd") // not a comment /* nor this */"#;
+    let hostile =
+        r#"Tricky # $ * _ @ < > [ ] \ ~ / #read("/etc/passwd") // not a comment /* nor this */"#;
     let text = original
         .replace(
             "title: Robustness of the RP-HPLC assay of tarvenolide in 50 mg film-coated tablets",
@@ -241,7 +271,11 @@ fn study_text_is_printed_literally_never_run() {
             "notes: |\n  $x^2$ `raw` = heading? - list? 1. enum? #import \"@preview/x:0.1.0\": *\n",
         );
     std::fs::write(dir.path().join("study.yaml"), text).unwrap();
-    std::fs::copy(example("hplc-assay/results.csv"), dir.path().join("results.csv")).unwrap();
+    std::fs::copy(
+        example("hplc-assay/results.csv"),
+        dir.path().join("results.csv"),
+    )
+    .unwrap();
     let out = dir.path().join("r");
     plateau(&["report", "--typst"])
         .arg_path(&typst)
@@ -252,7 +286,10 @@ fn study_text_is_printed_literally_never_run() {
     let pdf = pdf_text(&out.join("report.pdf"));
     let flat = pdf.split_whitespace().collect::<Vec<_>>().join(" ");
     let hostile_flat = hostile.split_whitespace().collect::<Vec<_>>().join(" ");
-    assert!(flat.contains(&hostile_flat), "title not literal in:\n{flat}");
+    assert!(
+        flat.contains(&hostile_flat),
+        "title not literal in:\n{flat}"
+    );
     assert!(
         flat.contains(r#"$x^2$ `raw` = heading? - list? 1. enum? #import "@preview/x:0.1.0": *"#),
         "notes not literal in:\n{flat}"
@@ -264,7 +301,11 @@ fn study_text_is_printed_literally_never_run() {
 fn diff_of_identical_studies_says_no_changes_and_exits_0() {
     let study = fixture("diff-hplc-rerun/study.yaml");
     let run = plateau(&["diff"]).arg_path(&study).arg_path(&study).ok();
-    assert!(run.stdout.trim_end().ends_with("no changes"), "{}", run.stdout);
+    assert!(
+        run.stdout.trim_end().ends_with("no changes"),
+        "{}",
+        run.stdout
+    );
 }
 
 #[test]
@@ -283,9 +324,17 @@ fn diff_of_a_rerun_lists_the_changed_effect_the_flipped_verdict_and_the_new_sent
         .arg_path(&dir.path().join("study.yaml"))
         .arg_path(&dir.path().join("rerun.yaml"))
         .ok();
-    assert!(run.stdout.contains("verdicts that flipped"), "{}", run.stdout);
+    assert!(
+        run.stdout.contains("verdicts that flipped"),
+        "{}",
+        run.stdout
+    );
     assert!(run.stdout.contains("relevant  yes  no"), "{}", run.stdout);
-    assert!(run.stdout.contains("+ Within the tested ranges"), "{}", run.stdout);
+    assert!(
+        run.stdout.contains("+ Within the tested ranges"),
+        "{}",
+        run.stdout
+    );
     let json = json_of(
         &plateau(&["diff", "--json"])
             .arg_path(&dir.path().join("study.yaml"))

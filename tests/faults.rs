@@ -32,7 +32,9 @@ fn an_output_folder_that_cannot_be_created_is_an_error_naming_it() {
 fn a_full_disk_is_an_error_and_leaves_nothing_behind() {
     // /dev/full accepts no data: writing the run sheet there fails like a full disk.
     if !Path::new("/dev/full").exists() {
-        panic!("this platform has no /dev/full; the fault needs another way to simulate a full disk");
+        panic!(
+            "this platform has no /dev/full; the fault needs another way to simulate a full disk"
+        );
     }
     let run = plateau(&["design", "--force", "-o", "/dev/full"])
         .arg_path(&example("hplc-assay/study.yaml"))
@@ -45,7 +47,10 @@ fn a_run_killed_during_typesetting_leaves_the_previous_report_complete() {
     let dir = tempfile::tempdir().unwrap();
     let study = copy_example(dir.path());
     let out = dir.path().join("r");
-    plateau(&["report", "--no-pdf", "-o"]).arg_path(&out).arg_path(&study).ok();
+    plateau(&["report", "--no-pdf", "-o"])
+        .arg_path(&out)
+        .arg_path(&study)
+        .ok();
     let before: Vec<(String, Vec<u8>)> = common_files(&out);
     // A typesetter that answers its version, then hangs, stands in for a long compile.
     let stub = dir.path().join("typst");
@@ -66,9 +71,12 @@ fn a_run_killed_during_typesetting_leaves_the_previous_report_complete() {
     // Wait until the staging folder exists (the typesetter is running), then SIGKILL.
     let deadline = std::time::Instant::now() + std::time::Duration::from_secs(20);
     while std::time::Instant::now() < deadline
-        && !std::fs::read_dir(dir.path())
-            .unwrap()
-            .any(|e| e.unwrap().file_name().to_string_lossy().starts_with(".r.partial-"))
+        && !std::fs::read_dir(dir.path()).unwrap().any(|e| {
+            e.unwrap()
+                .file_name()
+                .to_string_lossy()
+                .starts_with(".r.partial-")
+        })
     {
         std::thread::sleep(std::time::Duration::from_millis(20));
     }
@@ -76,14 +84,19 @@ fn a_run_killed_during_typesetting_leaves_the_previous_report_complete() {
     child.wait().unwrap();
     assert_eq!(common_files(&out), before, "the previous report changed");
     // The next run clears the leftover staging folder and succeeds.
-    plateau(&["report", "--no-pdf", "--force", "-o"]).arg_path(&out).arg_path(&study).ok();
+    plateau(&["report", "--no-pdf", "--force", "-o"])
+        .arg_path(&out)
+        .arg_path(&study)
+        .ok();
     let leftovers: Vec<String> = std::fs::read_dir(dir.path())
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
         .filter(|n| n.starts_with('.'))
         .collect();
     assert!(leftovers.is_empty(), "{leftovers:?}");
-    let _ = std::process::Command::new("pkill").args(["-f", stub.to_str().unwrap()]).status();
+    let _ = std::process::Command::new("pkill")
+        .args(["-f", stub.to_str().unwrap()])
+        .status();
 }
 
 fn common_files(dir: &Path) -> Vec<(String, Vec<u8>)> {
@@ -91,7 +104,10 @@ fn common_files(dir: &Path) -> Vec<(String, Vec<u8>)> {
         .unwrap()
         .map(|e| {
             let e = e.unwrap();
-            (e.file_name().to_string_lossy().to_string(), std::fs::read(e.path()).unwrap())
+            (
+                e.file_name().to_string_lossy().to_string(),
+                std::fs::read(e.path()).unwrap(),
+            )
         })
         .collect();
     out.sort();
@@ -103,7 +119,8 @@ fn every_free_text_field_is_printed_literally_and_never_run() {
     let typst = typst_binary();
     let dir = tempfile::tempdir().unwrap();
     // Typst code in every kind of free text: code, import, math, raw, comments, brackets.
-    let hostile = r#"X#read("/etc/passwd") #import "@preview/a:0.1.0" $x^2$ ] // c /* d ``` raw ```"#;
+    let hostile =
+        r#"X#read("/etc/passwd") #import "@preview/a:0.1.0" $x^2$ ] // c /* d ``` raw ```"#;
     let q = format!("'{}'", hostile.replace('\'', "''"));
     // Units are at most 40 characters: a shorter hostile one.
     let u = "'#u $m$ [ ] // /* `r`'";
@@ -146,8 +163,14 @@ notes: {q}
     // Title, method, analyst, objective, factor name, justification, level name, response
     // name, basis, header, footer, notes: each at least once.
     let seen = flat.matches(marker).count();
-    assert!(seen >= 12, "the hostile text appears {seen} times literally in:\n{flat}");
-    assert!(flat.contains("#u $m$ [ ] // /* `r`"), "units not literal in:\n{flat}");
+    assert!(
+        seen >= 12,
+        "the hostile text appears {seen} times literally in:\n{flat}"
+    );
+    assert!(
+        flat.contains("#u $m$ [ ] // /* `r`"),
+        "units not literal in:\n{flat}"
+    );
     assert!(flat.contains("B #2"), "{flat}");
 }
 
@@ -186,7 +209,10 @@ fn identical_responses_make_lenth_say_it_cannot_judge_instead_of_dividing_by_zer
     let doc = analyse(&tiny_study([5.0, 5.0, 5.0, 5.0], "mean"));
     let lenth = &doc["responses"][0]["criteria"][0];
     assert!(lenth["e_crit"].is_null(), "{lenth}");
-    assert!(lenth["note"].as_str().unwrap().contains("cannot judge"), "{lenth}");
+    assert!(
+        lenth["note"].as_str().unwrap().contains("cannot judge"),
+        "{lenth}"
+    );
     assert!(doc["responses"][0]["effects"][0]["significant"].is_null());
 }
 
@@ -196,10 +222,19 @@ fn very_large_and_very_small_magnitudes_give_the_same_relative_results() {
     let reference = analyse(&tiny_study(base, "mean"));
     for scale in [1e-12, 1e12] {
         let scaled = analyse(&tiny_study(base.map(|v| v * scale), "mean"));
-        let (a, b) = (&reference["responses"][0]["effects"], &scaled["responses"][0]["effects"]);
+        let (a, b) = (
+            &reference["responses"][0]["effects"],
+            &scaled["responses"][0]["effects"],
+        );
         for (x, y) in a.as_array().unwrap().iter().zip(b.as_array().unwrap()) {
-            let (px, py) = (x["percent"].as_f64().unwrap(), y["percent"].as_f64().unwrap());
-            assert!((px - py).abs() <= 1e-9 * px.abs().max(1.0), "scale {scale}: {px} vs {py}");
+            let (px, py) = (
+                x["percent"].as_f64().unwrap(),
+                y["percent"].as_f64().unwrap(),
+            );
+            assert!(
+                (px - py).abs() <= 1e-9 * px.abs().max(1.0),
+                "scale {scale}: {px} vs {py}"
+            );
             assert_eq!(x["significant"], y["significant"], "scale {scale}");
         }
     }
@@ -211,6 +246,10 @@ fn a_percent_effect_against_a_mean_of_zero_is_an_error_not_a_division() {
     let path = dir.path().join("s.yaml");
     std::fs::write(&path, tiny_study([-1.0, 1.0, 1.0, -1.0], "mean")).unwrap();
     let run = plateau(&["analyze"]).arg_path(&path).code(1);
-    assert!(run.stderr.contains("responses[0].percent-of"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("responses[0].percent-of"),
+        "{}",
+        run.stderr
+    );
     assert!(run.stderr.contains("unit: absolute"), "{}", run.stderr);
 }

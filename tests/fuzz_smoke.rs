@@ -68,8 +68,14 @@ fn replay(target: &str, harness: fn(&[u8]) -> Reached, deepest: Reached) {
         files.len(),
         failures.join("\n")
     );
-    println!("{target}: {} inputs, stage reached: {stages:?}", files.len());
-    assert_eq!(furthest, deepest, "no input of {target} got through the whole harness");
+    println!(
+        "{target}: {} inputs, stage reached: {stages:?}",
+        files.len()
+    );
+    assert_eq!(
+        furthest, deepest,
+        "no input of {target} got through the whole harness"
+    );
 }
 
 #[test]

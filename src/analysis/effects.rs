@@ -13,7 +13,10 @@ pub fn column_value(coded: &[i8], term: TermMask) -> i8 {
     let mut value = 1i8;
     let mut rest = term;
     while rest != 0 {
-        value *= coded.get(rest.trailing_zeros() as usize).copied().unwrap_or(0);
+        value *= coded
+            .get(rest.trailing_zeros() as usize)
+            .copied()
+            .unwrap_or(0);
         rest &= rest - 1;
     }
     value
@@ -108,7 +111,11 @@ mod tests {
     #[test]
     fn direct_mean_difference_agrees_with_fwht_on_the_pilot_plant() {
         let coded: Vec<Vec<i8>> = (0..8)
-            .map(|i| (0..3).map(|j| if i >> j & 1 == 1 { 1 } else { -1 }).collect())
+            .map(|i| {
+                (0..3)
+                    .map(|j| if i >> j & 1 == 1 { 1 } else { -1 })
+                    .collect()
+            })
             .collect();
         let rows: Vec<&[i8]> = coded.iter().map(Vec::as_slice).collect();
         let fast = all_effects_fwht(&PILOT_PLANT).unwrap();

@@ -244,8 +244,16 @@ pub fn analyse_response(
             format!(
                 "percent effects of `{}` cannot be taken against a {} of {}",
                 response.id,
-                if reference_kind == "nominal-mean" { "nominal-run mean" } else { "design mean" },
-                if reference.is_finite() { reference.to_string() } else { "(none)".into() }
+                if reference_kind == "nominal-mean" {
+                    "nominal-run mean"
+                } else {
+                    "design mean"
+                },
+                if reference.is_finite() {
+                    reference.to_string()
+                } else {
+                    "(none)".into()
+                }
             ),
             if reference_kind == "nominal-mean" {
                 "expected a reference different from zero; use `percent-of: mean`, or judge the response with an absolute limit (`unit: absolute`)"
@@ -293,20 +301,28 @@ pub fn analyse_response(
                 .collect::<Vec<_>>()
                 .join(" = ")
         };
-        effect_list.push((contrast, Effect {
-            factors: ids(design, contrast.term),
-            label,
-            order: term_order(contrast.term),
-            effect: e,
-            percent: 100.0 * e / reference,
-            estimable: contrast.is_clean(),
-            dummy,
-            aliases: contrast.chain.iter().skip(1).map(|(t, _)| ids(design, *t)).collect(),
-            relevant: None,
-            significant: None,
-            significance: Vec::new(),
-            exceeds_sme: None,
-        }));
+        effect_list.push((
+            contrast,
+            Effect {
+                factors: ids(design, contrast.term),
+                label,
+                order: term_order(contrast.term),
+                effect: e,
+                percent: 100.0 * e / reference,
+                estimable: contrast.is_clean(),
+                dummy,
+                aliases: contrast
+                    .chain
+                    .iter()
+                    .skip(1)
+                    .map(|(t, _)| ids(design, *t))
+                    .collect(),
+                relevant: None,
+                significant: None,
+                significance: Vec::new(),
+                exceeds_sme: None,
+            },
+        ));
     }
 
     // 5. Practical relevance.
@@ -345,12 +361,28 @@ pub fn analyse_response(
     // 7. Statistical criteria.
     let n_two_level = y.len();
     for rule in study.significance.iter().filter(|s| s.response == r) {
-        let field = FieldPath::of(&["acceptance"]).index(rule.entry).key("significance");
-        let (critical, error_terms, error_masks) =
-            critical_for(study, design, rule, &effect_list, n_two_level, &anova_table, &field)?;
+        let field = FieldPath::of(&["acceptance"])
+            .index(rule.entry)
+            .key("significance");
+        let (critical, error_terms, error_masks) = critical_for(
+            study,
+            design,
+            rule,
+            &effect_list,
+            n_two_level,
+            &anova_table,
+            &field,
+        )?;
         for (contrast, e) in effect_list.iter_mut() {
-            let is_error = e.dummy || error_masks.iter().any(|m| contrast.chain.iter().any(|(t, _)| t == m));
-            let verdict = if is_error { None } else { criterion::judge(e.effect, &critical) };
+            let is_error = e.dummy
+                || error_masks
+                    .iter()
+                    .any(|m| contrast.chain.iter().any(|(t, _)| t == m));
+            let verdict = if is_error {
+                None
+            } else {
+                criterion::judge(e.effect, &critical)
+            };
             e.significance.push(verdict);
             if e.significance.len() == 1 {
                 e.significant = verdict;
@@ -423,14 +455,30 @@ pub fn analyse_response(
     };
 
     // 10. Worst case of a suitability response.
-    let suitability: Vec<&crate::study::SuitabilityLimit> =
-        study.suitability.iter().filter(|s| s.response == r).collect();
+    let suitability: Vec<&crate::study::SuitabilityLimit> = study
+        .suitability
+        .iter()
+        .filter(|s| s.response == r)
+        .collect();
     let decimals = response.decimals.unwrap_or_else(|| {
-        let all: Vec<f64> = data.values.values().filter_map(|v| v.get(r)).flatten().copied().collect();
+        let all: Vec<f64> = data
+            .values
+            .values()
+            .filter_map(|v| v.get(r))
+            .flatten()
+            .copied()
+            .collect();
         data_decimals(&all)
     });
     let worst = if response.role == Role::Suitability || !suitability.is_empty() {
-        worst_case(&effects_out, design_mean, &suitability, decimals, has_significance, !limits.is_empty())
+        worst_case(
+            &effects_out,
+            design_mean,
+            &suitability,
+            decimals,
+            has_significance,
+            !limits.is_empty(),
+        )
     } else {
         None
     };
@@ -456,15 +504,13 @@ pub fn analyse_response(
     in_order.sort_by_key(|(_, run)| run.order);
     let run_values = in_order
         .into_iter()
-        .map(|(i, run)| {
-            RunValue {
-                run: run.id.0.clone(),
-                order: run.order,
-                nominal: run.nominal,
-                excluded: !used.get(i).copied().unwrap_or(true),
-                raw: raw.get(i).copied().unwrap_or(f64::NAN),
-                value: values.get(i).copied().unwrap_or(f64::NAN),
-            }
+        .map(|(i, run)| RunValue {
+            run: run.id.0.clone(),
+            order: run.order,
+            nominal: run.nominal,
+            excluded: !used.get(i).copied().unwrap_or(true),
+            raw: raw.get(i).copied().unwrap_or(f64::NAN),
+            value: values.get(i).copied().unwrap_or(f64::NAN),
         })
         .collect();
 
@@ -522,28 +568,46 @@ fn critical_for(
     field: &FieldPath,
 ) -> Result<(Critical, Vec<String>, Vec<TermMask>), Problem> {
     let stat = |e: super::quantile::StatError| {
-        problem(field.clone(), format!("the criterion cannot be computed: {e}"), "see the method's requirements in the README")
+        problem(
+            field.clone(),
+            format!("the criterion cannot be computed: {e}"),
+            "see the method's requirements in the README",
+        )
     };
     match rule.method {
         Method::Precision => {
             let (Some(s), Some(df)) = (rule.s, rule.df) else {
-                return Err(problem(field.clone(), "method precision needs `s` and `df`", "expected both"));
+                return Err(problem(
+                    field.clone(),
+                    "method precision needs `s` and `df`",
+                    "expected both",
+                ));
             };
-            let c = Critical::from_precision(s, df, n_two_level, rule.determinations, rule.alpha).map_err(stat)?;
+            let c = Critical::from_precision(s, df, n_two_level, rule.determinations, rule.alpha)
+                .map_err(stat)?;
             Ok((c, Vec::new(), Vec::new()))
         }
         Method::Dummies => {
-            let dummies: Vec<&Effect> = effects.iter().map(|(_, e)| e).filter(|e| e.dummy).collect();
+            let dummies: Vec<&Effect> =
+                effects.iter().map(|(_, e)| e).filter(|e| e.dummy).collect();
             if dummies.is_empty() {
                 return Err(problem(
                     field.key("method"),
-                    format!("the design has no dummy columns ({} factors fill all its columns)", study.factors.len()),
+                    format!(
+                        "the design has no dummy columns ({} factors fill all its columns)",
+                        study.factors.len()
+                    ),
                     "expected kind plackett-burman with `dummies: k` (or a smaller number of factors), or another method",
                 ));
             }
             let values: Vec<f64> = dummies.iter().map(|e| e.effect).collect();
-            let c = Critical::from_error_effects(&values, rule.alpha, Method::Dummies).map_err(stat)?;
-            Ok((c, dummies.iter().map(|e| e.label.clone()).collect(), Vec::new()))
+            let c =
+                Critical::from_error_effects(&values, rule.alpha, Method::Dummies).map_err(stat)?;
+            Ok((
+                c,
+                dummies.iter().map(|e| e.label.clone()).collect(),
+                Vec::new(),
+            ))
         }
         Method::Negligible => {
             let mut values = Vec::new();
@@ -563,7 +627,10 @@ fn critical_for(
                 if term_order(contrast.term) == 1 {
                     return Err(problem(
                         field.key("terms").index(j),
-                        format!("`{text}` shares its column with the main effect {}", design.label(contrast.term)),
+                        format!(
+                            "`{text}` shares its column with the main effect {}",
+                            design.label(contrast.term)
+                        ),
                         "expected terms whose column carries no main effect",
                     ));
                 }
@@ -573,7 +640,8 @@ fn critical_for(
                     masks.push(contrast.term);
                 }
             }
-            let c = Critical::from_error_effects(&values, rule.alpha, Method::Negligible).map_err(stat)?;
+            let c = Critical::from_error_effects(&values, rule.alpha, Method::Negligible)
+                .map_err(stat)?;
             Ok((c, labels, masks))
         }
         Method::Dong | Method::Lenth => {
@@ -596,8 +664,13 @@ fn critical_for(
             };
             let ms = table.pure_error.ms.unwrap_or(f64::NAN);
             let determinations: usize = table.n_observations_two_level.max(n_two_level);
-            let c = Critical::from_pure_error(ms.sqrt(), table.pure_error.df as f64, determinations, rule.alpha)
-                .map_err(stat)?;
+            let c = Critical::from_pure_error(
+                ms.sqrt(),
+                table.pure_error.df as f64,
+                determinations,
+                rule.alpha,
+            )
+            .map_err(stat)?;
             Ok((c, Vec::new(), Vec::new()))
         }
     }
@@ -665,14 +738,38 @@ fn worst_case(
 ) -> Option<WorstCaseSummary> {
     let min = limits.iter().find_map(|l| l.min);
     let max = limits.iter().find_map(|l| l.max);
-    let direction = if max.is_some() && min.is_none() { Direction::Higher } else { Direction::Lower };
-    let mains: Vec<&Effect> = effects.iter().filter(|e| e.order == 1 && !e.dummy).collect();
-    let (chosen, basis): (Vec<&Effect>, &str) = if has_significance {
-        (mains.iter().copied().filter(|e| e.significant == Some(true)).collect(), "significant main effects")
-    } else if has_relevance {
-        (mains.iter().copied().filter(|e| e.relevant == Some(true)).collect(), "relevant main effects")
+    let direction = if max.is_some() && min.is_none() {
+        Direction::Higher
     } else {
-        (mains.clone(), "all main effects (no criterion declared for this response)")
+        Direction::Lower
+    };
+    let mains: Vec<&Effect> = effects
+        .iter()
+        .filter(|e| e.order == 1 && !e.dummy)
+        .collect();
+    let (chosen, basis): (Vec<&Effect>, &str) = if has_significance {
+        (
+            mains
+                .iter()
+                .copied()
+                .filter(|e| e.significant == Some(true))
+                .collect(),
+            "significant main effects",
+        )
+    } else if has_relevance {
+        (
+            mains
+                .iter()
+                .copied()
+                .filter(|e| e.relevant == Some(true))
+                .collect(),
+            "relevant main effects",
+        )
+    } else {
+        (
+            mains.clone(),
+            "all main effects (no criterion declared for this response)",
+        )
     };
     let list: Vec<(String, f64)> = chosen.iter().map(|e| (e.label.clone(), e.effect)).collect();
     let prediction = decision::worst_case(mean, &list, direction).ok()?;
@@ -687,7 +784,8 @@ fn worst_case(
     let meets = match (min, max) {
         (None, None) => None,
         _ => Some(
-            min.is_none_or(|m| prediction.predicted >= m) && max.is_none_or(|m| prediction.predicted <= m),
+            min.is_none_or(|m| prediction.predicted >= m)
+                && max.is_none_or(|m| prediction.predicted <= m),
         ),
     };
     Some(WorstCaseSummary {
@@ -706,7 +804,10 @@ fn control_ranges(
     criteria: &[CriterionSummary],
     reference: f64,
 ) -> Vec<ControlRange> {
-    let e_crit = criteria.iter().find(|c| c.method != "effect-limit").and_then(|c| c.e_crit);
+    let e_crit = criteria
+        .iter()
+        .find(|c| c.method != "effect-limit")
+        .and_then(|c| c.e_crit);
     let limit_abs = criteria
         .iter()
         .filter(|c| c.method == "effect-limit")
@@ -718,8 +819,12 @@ fn control_ranges(
         .reduce(f64::min);
     let mut out = Vec::new();
     for e in effects.iter().filter(|e| e.order == 1 && !e.dummy) {
-        let Some(id) = e.factors.first() else { continue };
-        let Some(f) = study.factors.iter().find(|f| &f.id == id) else { continue };
+        let Some(id) = e.factors.first() else {
+            continue;
+        };
+        let Some(f) = study.factors.iter().find(|f| &f.id == id) else {
+            continue;
+        };
         let mut bases = Vec::new();
         if e.relevant == Some(true) {
             bases.push((limit_abs, "relevance"));
@@ -728,7 +833,7 @@ fn control_ranges(
             bases.push((e_crit, "significance"));
         }
         for (threshold, basis) in bases {
-        match &f.levels {
+            match &f.levels {
             Levels::Numeric { nominal, low, high } => {
                 let range = threshold.and_then(|t| decision::non_significance_interval(e.effect, t, *low, *high, *nominal));
                 out.push(ControlRange {
@@ -763,8 +868,12 @@ fn control_ranges(
 fn uncertainty(study: &Study, effects: &[Effect]) -> Option<UncertaintySummary> {
     let mut rows = Vec::new();
     for f in &study.factors {
-        let Some((a, distribution)) = f.routine else { continue };
-        let Levels::Numeric { low, high, .. } = f.levels else { continue };
+        let Some((a, distribution)) = f.routine else {
+            continue;
+        };
+        let Levels::Numeric { low, high, .. } = f.levels else {
+            continue;
+        };
         let Some(e) = effects
             .iter()
             .find(|e| e.order == 1 && e.factors.first() == Some(&f.id))
@@ -783,7 +892,8 @@ fn uncertainty(study: &Study, effects: &[Effect]) -> Option<UncertaintySummary> 
     if rows.is_empty() {
         return None;
     }
-    let contributions: Vec<decision::Contribution> = rows.iter().map(|r| r.contribution.clone()).collect();
+    let contributions: Vec<decision::Contribution> =
+        rows.iter().map(|r| r.contribution.clone()).collect();
     Some(UncertaintySummary {
         combined: decision::combined(&contributions),
         rows,
@@ -806,7 +916,11 @@ fn fwht_effects(design: &Design, two_level_y: &[f64]) -> Option<Vec<f64>> {
 /// Least-squares effects E = 2b of the design's contrasts over the runs used, adding columns
 /// in order (main effects first) while they stay estimable; returns the effects by term and
 /// the labels of the columns that had to be left out.
-fn least_squares(design: &Design, rows: &[&[i8]], y: &[f64]) -> (BTreeMap<TermMask, f64>, Vec<String>) {
+fn least_squares(
+    design: &Design,
+    rows: &[&[i8]],
+    y: &[f64],
+) -> (BTreeMap<TermMask, f64>, Vec<String>) {
     let n = rows.len();
     let mut kept: Vec<TermMask> = Vec::new();
     let mut dropped = Vec::new();
@@ -815,7 +929,10 @@ fn least_squares(design: &Design, rows: &[&[i8]], y: &[f64]) -> (BTreeMap<TermMa
             if j == 0 {
                 1.0
             } else {
-                f64::from(effects::column_value(rows.get(i).copied().unwrap_or(&[]), terms[j - 1]))
+                f64::from(effects::column_value(
+                    rows.get(i).copied().unwrap_or(&[]),
+                    terms[j - 1],
+                ))
             }
         })
     };

@@ -9,8 +9,8 @@ pub mod curvature;
 pub mod decision;
 pub mod drift;
 pub mod effects;
-pub mod quantile;
 pub mod judge;
+pub mod quantile;
 pub mod text;
 
 use serde::Serialize;
@@ -233,13 +233,19 @@ pub struct Verdict {
 }
 
 /// Analyses a study whose design and measurements are known.
-pub fn analyse(study: &Study, design: &Design, data: &Measurements) -> Result<Analysis, Diagnostics> {
+pub fn analyse(
+    study: &Study,
+    design: &Design,
+    data: &Measurements,
+) -> Result<Analysis, Diagnostics> {
     let mut responses = Vec::new();
     let mut problems = Diagnostics::default();
     for r in 0..study.responses.len() {
         match judge::analyse_response(study, design, data, r) {
             Ok(a) => responses.push(a),
-            Err(problem) => problems.push(study.diagnostic(&problem.field, problem.problem, problem.expected)),
+            Err(problem) => {
+                problems.push(study.diagnostic(&problem.field, problem.problem, problem.expected))
+            }
         }
     }
     if !problems.is_empty() {
@@ -280,10 +286,10 @@ pub fn analyse(study: &Study, design: &Design, data: &Measurements) -> Result<An
         significant_factors: significant,
         provenance: Provenance {
             plateau_version: env!("CARGO_PKG_VERSION").to_string(),
-            study_file: study
-                .path
-                .file_name()
-                .map_or_else(|| study.file_name.clone(), |n| n.to_string_lossy().to_string()),
+            study_file: study.path.file_name().map_or_else(
+                || study.file_name.clone(),
+                |n| n.to_string_lossy().to_string(),
+            ),
             study_sha256: study.sha256.clone(),
             data_file: data.data_file.clone(),
         },
@@ -311,7 +317,12 @@ fn design_summary(design: &Design) -> DesignSummary {
         word_length_pattern: design.structure.word_length_pattern.clone(),
         youden: design.structure.youden,
         folded: design.structure.folded,
-        dummies: design.column_ids.iter().skip(design.k() - design.dummies).cloned().collect(),
+        dummies: design
+            .column_ids
+            .iter()
+            .skip(design.k() - design.dummies)
+            .cloned()
+            .collect(),
         least_squares: design.least_squares,
         alias_order: design.structure.alias_order,
         partial_aliases: design.structure.partial_aliases.clone(),

@@ -25,8 +25,16 @@ pub fn tables(evaluated: &Evaluated) -> String {
             "\n{} [{}]{}{}\n  reference ({}): {}\n  acceptance: {}\n",
             r.name,
             r.id,
-            if unit.is_empty() { String::new() } else { format!(" ({unit})") },
-            if r.role == "suitability" { ", suitability response" } else { "" },
+            if unit.is_empty() {
+                String::new()
+            } else {
+                format!(" ({unit})")
+            },
+            if r.role == "suitability" {
+                ", suitability response"
+            } else {
+                ""
+            },
             r.reference_kind,
             fixed(r.reference, r.decimals + 1),
             limit_text(r).unwrap_or_else(|| "no effect limit declared".into())
@@ -41,7 +49,10 @@ pub fn tables(evaluated: &Evaluated) -> String {
             .max()
             .unwrap_or(4)
             .max(4);
-        out.push_str(&format!("  {:<width$}  {:>12}  {:>10}  {:>8}", "term", "effect", "% effect", "relevant"));
+        out.push_str(&format!(
+            "  {:<width$}  {:>12}  {:>10}  {:>8}",
+            "term", "effect", "% effect", "relevant"
+        ));
         for c in &j.columns {
             out.push_str(&format!("  {c:>15}"));
         }
@@ -65,11 +76,17 @@ pub fn tables(evaluated: &Evaluated) -> String {
             }
             out.push('\n');
         }
-        for line in [&j.curvature, &j.drift, &j.worst_case].into_iter().flatten() {
+        for line in [&j.curvature, &j.drift, &j.worst_case]
+            .into_iter()
+            .flatten()
+        {
             out.push_str(&format!("  {line}\n"));
         }
         for row in &j.ranges {
-            out.push_str(&format!("  operating range: {} {} ({}; tested {})\n", row[0], row[2], row[1], row[3]));
+            out.push_str(&format!(
+                "  operating range: {} {} ({}; tested {})\n",
+                row[0], row[2], row[1], row[3]
+            ));
         }
         for n in &j.notes {
             out.push_str(&format!("  note: {n}\n"));

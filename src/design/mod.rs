@@ -12,9 +12,7 @@ pub mod plackett_burman;
 pub mod sheet;
 pub mod word;
 
-use crate::study::{
-    DesignKind, Diagnostic, Diagnostics, FieldPath, RunId, Study,
-};
+use crate::study::{DesignKind, Diagnostic, Diagnostics, FieldPath, RunId, Study};
 
 /// A term (main effect or interaction) as a bit set of factor indices.
 pub type TermMask = u64;
@@ -220,7 +218,11 @@ fn words_text(ids: &[String], word: crate::design::word::SignedWord) -> String {
         .into_iter()
         .filter_map(|i| ids.get(i).map(String::as_str))
         .collect();
-    format!("{}{}", if word.sign < 0 { "−" } else { "" }, names.join("×"))
+    format!(
+        "{}{}",
+        if word.sign < 0 { "−" } else { "" },
+        names.join("×")
+    )
 }
 
 fn regular_fraction(study: &Study) -> Result<Design, Diagnostics> {
@@ -273,7 +275,10 @@ fn regular_fraction(study: &Study) -> Result<Design, Diagnostics> {
     let structure = Structure {
         generators: request.generator_texts.clone(),
         catalogue: request.catalogue.clone(),
-        defining_relation: defining.iter().map(|w| format!("I = {}", words_text(&ids, *w))).collect(),
+        defining_relation: defining
+            .iter()
+            .map(|w| format!("I = {}", words_text(&ids, *w)))
+            .collect(),
         resolution,
         word_length_pattern: wlp,
         youden: !request.foldover && crate::design::fraction::is_youden_steiner(fraction),
@@ -307,7 +312,10 @@ fn plackett_burman(study: &Study) -> Result<Design, Diagnostics> {
     ids.extend(dummy_ids(dummies));
     let mut rows = matrix;
     if request.foldover {
-        let mirror: Vec<Vec<i8>> = rows.iter().map(|r| r.iter().map(|v| -v).collect()).collect();
+        let mirror: Vec<Vec<i8>> = rows
+            .iter()
+            .map(|r| r.iter().map(|v| -v).collect())
+            .collect();
         rows.extend(mirror);
     }
     let contrasts = (0..columns)
@@ -327,7 +335,10 @@ fn plackett_burman(study: &Study) -> Result<Design, Diagnostics> {
                 .into_iter()
                 .filter_map(|i| ids.get(i).cloned())
                 .collect(),
-            with: ids.get(p.with.0.trailing_zeros() as usize).cloned().unwrap_or_default(),
+            with: ids
+                .get(p.with.0.trailing_zeros() as usize)
+                .cloned()
+                .unwrap_or_default(),
             correlation: p.correlation,
         })
         .collect();
@@ -341,7 +352,9 @@ fn plackett_burman(study: &Study) -> Result<Design, Diagnostics> {
     let replicates = request.replicates.max(1);
     let two_level = replicate_rows(&rows, replicates);
     let nominal = nominal_ids(study, base * replicates);
-    let mut design = assemble(study, two_level, nominal, base, replicates, contrasts, false);
+    let mut design = assemble(
+        study, two_level, nominal, base, replicates, contrasts, false,
+    );
     design.column_ids = ids;
     design.dummies = dummies;
     design.structure = structure;
@@ -355,7 +368,9 @@ fn full_factorial(study: &Study) -> Design {
     let mut two_level = Vec::with_capacity(n * replicates);
     for r in 0..replicates {
         for i in 0..n {
-            let coded = (0..k).map(|j| if i >> j & 1 == 1 { 1 } else { -1 }).collect();
+            let coded = (0..k)
+                .map(|j| if i >> j & 1 == 1 { 1 } else { -1 })
+                .collect();
             two_level.push((RunId((r * n + i + 1).to_string()), coded, r + 1));
         }
     }
@@ -369,7 +384,15 @@ fn full_factorial(study: &Study) -> Design {
     let nominal_ids: Vec<RunId> = (0..study.design.center_points)
         .map(|c| RunId((n * replicates + c + 1).to_string()))
         .collect();
-    assemble(study, two_level, nominal_ids, n, replicates, contrasts, true)
+    assemble(
+        study,
+        two_level,
+        nominal_ids,
+        n,
+        replicates,
+        contrasts,
+        true,
+    )
 }
 
 /// Builds the run list with its order from the two-level runs and the nominal run ids.
@@ -551,11 +574,14 @@ fn explicit(study: &Study) -> Result<Design, Diagnostics> {
 
 /// True when every factor column is balanced and every pair of columns orthogonal.
 fn is_orthogonal(matrix: &[Vec<i8>], k: usize) -> bool {
-    let col = |j: usize| matrix.iter().map(move |row| i64::from(row.get(j).copied().unwrap_or(0)));
+    let col = |j: usize| {
+        matrix
+            .iter()
+            .map(move |row| i64::from(row.get(j).copied().unwrap_or(0)))
+    };
     (0..k).all(|a| col(a).sum::<i64>() == 0)
-        && (0..k).all(|a| {
-            (a + 1..k).all(|b| col(a).zip(col(b)).map(|(x, y)| x * y).sum::<i64>() == 0)
-        })
+        && (0..k)
+            .all(|a| (a + 1..k).all(|b| col(a).zip(col(b)).map(|(x, y)| x * y).sum::<i64>() == 0))
 }
 
 fn check_explicit_order(study: &Study, runs: &[PlannedRun]) -> Result<(), Diagnostic> {
@@ -660,7 +686,11 @@ mod tests {
     #[test]
     fn a_full_factorial_matrix_estimates_every_term_cleanly() {
         let matrix: Vec<Vec<i8>> = (0..8)
-            .map(|i| (0..3).map(|j| if i >> j & 1 == 1 { 1 } else { -1 }).collect())
+            .map(|i| {
+                (0..3)
+                    .map(|j| if i >> j & 1 == 1 { 1 } else { -1 })
+                    .collect()
+            })
             .collect();
         let contrasts = contrasts_from_matrix(&matrix, 3);
         assert_eq!(contrasts.len(), 7);

@@ -126,7 +126,10 @@ mod tests {
 
     #[test]
     fn first_and_last_placements() {
-        assert_eq!(run_order(2, 1, NominalPlacement::First, None), vec![2, 3, 1]);
+        assert_eq!(
+            run_order(2, 1, NominalPlacement::First, None),
+            vec![2, 3, 1]
+        );
         assert_eq!(run_order(2, 1, NominalPlacement::Last, None), vec![1, 2, 3]);
     }
 

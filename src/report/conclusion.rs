@@ -19,7 +19,11 @@ pub fn range_text(study: &Study, factor_id: &str) -> String {
     };
     match &f.levels {
         crate::study::Levels::Numeric { low, high, .. } => {
-            let unit = f.unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default();
+            let unit = f
+                .unit
+                .as_deref()
+                .map(|u| format!(" {u}"))
+                .unwrap_or_default();
             format!("{} to {}{unit}", setting(*low), setting(*high))
         }
         crate::study::Levels::Categorical {
@@ -48,7 +52,11 @@ pub fn limit_text(response: &ResponseAnalysis) -> Option<String> {
                 LimitUnit::Absolute => format!(
                     "|effect| ≤ {}{}",
                     setting(l.limit),
-                    response.unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default()
+                    response
+                        .unit
+                        .as_deref()
+                        .map(|u| format!(" {u}"))
+                        .unwrap_or_default()
                 ),
             };
             match &l.basis {
@@ -74,19 +82,50 @@ fn effect_words(response: &ResponseAnalysis, e: &Effect) -> String {
 }
 
 /// A statistical criterion in words, e.g. `Lenth's method (α = 0.05, ME = 0.45, SME = 0.97)`.
-pub fn significance_text(response: &ResponseAnalysis, c: &crate::analysis::judge::CriterionSummary) -> String {
+pub fn significance_text(
+    response: &ResponseAnalysis,
+    c: &crate::analysis::judge::CriterionSummary,
+) -> String {
     let d = response.decimals + 1;
-    let alpha = c.alpha.map(|a| format!("α = {}", setting(a))).unwrap_or_default();
-    let df = c.df.map(|v| format!(", df = {}", trim(v))).unwrap_or_default();
+    let alpha = c
+        .alpha
+        .map(|a| format!("α = {}", setting(a)))
+        .unwrap_or_default();
+    let df =
+        c.df.map(|v| format!(", df = {}", trim(v)))
+            .unwrap_or_default();
     let numbers = match (c.me, c.sme, c.e_crit) {
-        (Some(me), Some(sme), _) => format!("{alpha}{df}, PSE = {}, ME = {}, SME = {}", fixed(c.pse.unwrap_or(f64::NAN), d), fixed(me, d), fixed(sme, d)),
-        (_, _, Some(e)) => format!("{alpha}{df}, SE(E) = {}, E_crit = {}", fixed(c.se.unwrap_or(f64::NAN), d), fixed(e, d)),
-        _ => format!("{alpha}{df}; {}", c.note.clone().unwrap_or_else(|| "the method could not judge".into())),
+        (Some(me), Some(sme), _) => format!(
+            "{alpha}{df}, PSE = {}, ME = {}, SME = {}",
+            fixed(c.pse.unwrap_or(f64::NAN), d),
+            fixed(me, d),
+            fixed(sme, d)
+        ),
+        (_, _, Some(e)) => format!(
+            "{alpha}{df}, SE(E) = {}, E_crit = {}",
+            fixed(c.se.unwrap_or(f64::NAN), d),
+            fixed(e, d)
+        ),
+        _ => format!(
+            "{alpha}{df}; {}",
+            c.note
+                .clone()
+                .unwrap_or_else(|| "the method could not judge".into())
+        ),
     };
     let name = match c.method.as_str() {
-        "precision" => format!("critical effect from the known precision{}", c.basis.as_ref().map(|b| format!(" ({b})")).unwrap_or_default()),
+        "precision" => format!(
+            "critical effect from the known precision{}",
+            c.basis
+                .as_ref()
+                .map(|b| format!(" ({b})"))
+                .unwrap_or_default()
+        ),
         "dummies" => "critical effect from the dummy columns".to_string(),
-        "negligible" => format!("critical effect from the terms declared negligible ({})", c.error_terms.join(", ")),
+        "negligible" => format!(
+            "critical effect from the terms declared negligible ({})",
+            c.error_terms.join(", ")
+        ),
         "dong" => "Dong's algorithm".to_string(),
         "lenth" => "Lenth's method".to_string(),
         "anova" => "critical effect from the pure error (ANOVA)".to_string(),
@@ -150,8 +189,11 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
             .filter(|e| e.order == 1 && !e.dummy)
             .collect();
         let criterion = limit_text(response);
-        let statistical: Vec<&crate::analysis::judge::CriterionSummary> =
-            response.criteria.iter().filter(|c| c.method != "effect-limit").collect();
+        let statistical: Vec<&crate::analysis::judge::CriterionSummary> = response
+            .criteria
+            .iter()
+            .filter(|c| c.method != "effect-limit")
+            .collect();
         if criterion.is_none() && statistical.is_empty() && response.worst_case.is_none() {
             out.push(format!(
                 "{}: no acceptance rule was declared, so its effects are reported without a verdict.",
@@ -206,7 +248,10 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
             } else if significant.is_empty() {
                 "showed no significant main effect".to_string()
             } else {
-                format!("showed significant main effects of {}", and_list(&significant))
+                format!(
+                    "showed significant main effects of {}",
+                    and_list(&significant)
+                )
             };
             out.push(format!(
                 "{}: judged by the {}, the study {verdict}.",
@@ -232,7 +277,11 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
             ));
         }
         if let Some(w) = &response.worst_case {
-            let unit = response.unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default();
+            let unit = response
+                .unit
+                .as_deref()
+                .map(|u| format!(" {u}"))
+                .unwrap_or_default();
             let settings: Vec<String> = w
                 .prediction
                 .factors
@@ -275,7 +324,10 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
             let name = factor_name(study, &c.factor);
             let unit = factor_unit(study, &c.factor);
             // Where both criteria give a range, the practical one decides the procedure.
-            let both = response.control_ranges.iter().any(|o| o.factor == c.factor && o.basis == "relevance");
+            let both = response
+                .control_ranges
+                .iter()
+                .any(|o| o.factor == c.factor && o.basis == "relevance");
             if c.basis == "significance" && both {
                 continue;
             }
@@ -285,7 +337,11 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
                     "{name} {} to {}{unit} ({} criterion; tested {} to {}{unit})",
                     setting(round_sig(lo, 4)),
                     setting(round_sig(hi, 4)),
-                    if c.basis == "relevance" { "acceptance" } else { "statistical" },
+                    if c.basis == "relevance" {
+                        "acceptance"
+                    } else {
+                        "statistical"
+                    },
                     c.tested_low.map(setting).unwrap_or_default(),
                     c.tested_high.map(setting).unwrap_or_default(),
                 )),
@@ -300,28 +356,34 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
             ));
         }
         if let Some(d) = response.drift.as_ref().and_then(|d| d.check.as_ref())
-            && d.p.is_some_and(|p| p < 0.05) {
-                out.push(format!(
-                    "{}: the nominal runs drifted by {} per run (p = {}){}.",
-                    response.name,
-                    crate::report::format::signed(d.slope, response.decimals + 2),
-                    fixed(d.p.unwrap_or(f64::NAN), 3),
-                    if response.drift.as_ref().is_some_and(|d| d.correction.is_some()) {
-                        "; the effects were computed on drift-corrected values"
-                    } else {
-                        "; the effects were not corrected for it"
-                    }
-                ));
-            }
+            && d.p.is_some_and(|p| p < 0.05)
+        {
+            out.push(format!(
+                "{}: the nominal runs drifted by {} per run (p = {}){}.",
+                response.name,
+                crate::report::format::signed(d.slope, response.decimals + 2),
+                fixed(d.p.unwrap_or(f64::NAN), 3),
+                if response
+                    .drift
+                    .as_ref()
+                    .is_some_and(|d| d.correction.is_some())
+                {
+                    "; the effects were computed on drift-corrected values"
+                } else {
+                    "; the effects were not corrected for it"
+                }
+            ));
+        }
         if let Some(c) = &response.curvature
-            && c.p.is_some_and(|p| p < 0.05) {
-                out.push(format!(
+            && c.p.is_some_and(|p| p < 0.05)
+        {
+            out.push(format!(
                     "{}: the nominal runs differ significantly from the mean of the two-level runs (curvature {}, p = {}): the response is not linear between the levels.",
                     response.name,
                     crate::report::format::signed(c.difference, response.decimals + 1),
                     fixed(c.p.unwrap_or(f64::NAN), 3)
                 ));
-            }
+        }
         if let Some(u) = &response.uncertainty {
             out.push(format!(
                 "{}: the routine variation of {} contributes a combined standard uncertainty of {}{}.",
@@ -397,7 +459,16 @@ fn limitations(study: &Study, analysis: &Analysis) -> Vec<String> {
         .filter_map(|r| {
             let c = r.criteria.iter().find(|c| c.method != "effect-limit")?;
             let e = c.e_crit?;
-            Some(format!("{} {}", fixed(e, r.decimals + 1), r.unit.clone().unwrap_or_default()).trim().to_string() + &format!(" for {}", r.name))
+            Some(
+                format!(
+                    "{} {}",
+                    fixed(e, r.decimals + 1),
+                    r.unit.clone().unwrap_or_default()
+                )
+                .trim()
+                .to_string()
+                    + &format!(" for {}", r.name),
+            )
         })
         .collect();
     let mut s = format!(
@@ -421,7 +492,9 @@ fn count_word(n: usize) -> String {
         "No", "One", "Two", "Three", "Four", "Five", "Six", "Seven", "Eight", "Nine", "Ten",
         "Eleven", "Twelve",
     ];
-    WORDS.get(n).map_or_else(|| n.to_string(), |w| (*w).to_string())
+    WORDS
+        .get(n)
+        .map_or_else(|| n.to_string(), |w| (*w).to_string())
 }
 
 /// Items joined as prose: `a`, `a and b`, `a, b and c`.

@@ -833,22 +833,51 @@ pub fn references(evaluated: &Evaluated, has_figures: bool) -> Vec<Reference> {
     }
     let study = &evaluated.study;
     let analysis = &evaluated.analysis;
-    let uses = |m: &str| analysis.responses.iter().any(|r| r.criteria.iter().any(|c| c.method == m));
-    let reference = |authors: &str, year: &str, title: &str, source: &str, used_for: &str| Reference {
-        authors: authors.into(),
-        year: year.into(),
-        title: title.into(),
-        source: source.into(),
-        used_for: used_for.into(),
+    let uses = |m: &str| {
+        analysis
+            .responses
+            .iter()
+            .any(|r| r.criteria.iter().any(|c| c.method == m))
     };
+    let reference =
+        |authors: &str, year: &str, title: &str, source: &str, used_for: &str| Reference {
+            authors: authors.into(),
+            year: year.into(),
+            title: title.into(),
+            source: source.into(),
+            used_for: used_for.into(),
+        };
     if uses("lenth") {
-        out.push(reference("R. V. Lenth", "1989", "Quick and easy analysis of unreplicated factorials", "Technometrics 31, 469–473", "pseudo standard error, margin of error ME and simultaneous margin of error SME"));
+        out.push(reference(
+            "R. V. Lenth",
+            "1989",
+            "Quick and easy analysis of unreplicated factorials",
+            "Technometrics 31, 469–473",
+            "pseudo standard error, margin of error ME and simultaneous margin of error SME",
+        ));
     }
     if uses("dong") {
-        out.push(reference("F. Dong", "1993", "On the identification of active contrasts in unreplicated fractional factorials", "Statistica Sinica 3, 209–217", "critical effect by Dong's algorithm"));
+        out.push(reference(
+            "F. Dong",
+            "1993",
+            "On the identification of active contrasts in unreplicated fractional factorials",
+            "Statistica Sinica 3, 209–217",
+            "critical effect by Dong's algorithm",
+        ));
     }
-    if uses("anova") || analysis.responses.iter().any(|r| r.anova.is_some() || r.curvature.is_some()) {
-        out.push(reference("D. C. Montgomery", "2001", "Design and Analysis of Experiments, 5th edition", "Wiley, New York", "analysis of variance with pure error; curvature from centre points"));
+    if uses("anova")
+        || analysis
+            .responses
+            .iter()
+            .any(|r| r.anova.is_some() || r.curvature.is_some())
+    {
+        out.push(reference(
+            "D. C. Montgomery",
+            "2001",
+            "Design and Analysis of Experiments, 5th edition",
+            "Wiley, New York",
+            "analysis of variance with pure error; curvature from centre points",
+        ));
     }
     if analysis.responses.iter().any(|r| r.worst_case.is_some()) {
         out.push(reference("Y. Vander Heyden, F. Questier, D. L. Massart", "1999", "Ruggedness testing of chromatographic methods: selection of factors and levels", "Journal of Pharmaceutical and Biomedical Analysis 18, 43–56; with the worst-case prediction of system-suitability limits in J. Chromatogr. A 845 (1999) 145–154", "worst-case prediction and system-suitability limits"));
@@ -858,7 +887,13 @@ pub fn references(evaluated: &Evaluated, has_figures: bool) -> Vec<Reference> {
         out.push(reference("S. L. R. Ellison, A. Williams (eds.)", "2012", "Quantifying Uncertainty in Analytical Measurement, 3rd edition (Eurachem/CITAC Guide CG4)", "Eurachem", "uncertainty contributions from robustness effects"));
     }
     if study.source == crate::study::model::SourceKind::Development {
-        out.push(reference("ICH", "2023", "Q14: Analytical Procedure Development", "International Council for Harmonisation", "robustness shown during development"));
+        out.push(reference(
+            "ICH",
+            "2023",
+            "Q14: Analytical Procedure Development",
+            "International Council for Harmonisation",
+            "robustness shown during development",
+        ));
     }
     // One entry per work, first use kept.
     let mut seen = std::collections::BTreeSet::new();

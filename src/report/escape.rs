@@ -7,8 +7,7 @@
 
 /// Characters that start Typst markup, code, math, comments, labels or shorthands.
 const SPECIAL: &[char] = &[
-    '\\', '#', '$', '*', '_', '`', '<', '>', '@', '[', ']', '~', '/', '=', '-', '+', '.', '"',
-    '\'',
+    '\\', '#', '$', '*', '_', '`', '<', '>', '@', '[', ']', '~', '/', '=', '-', '+', '.', '"', '\'',
 ];
 
 /// Text escaped for Typst markup: printed literally, on one line.

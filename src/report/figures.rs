@@ -72,13 +72,26 @@ pub fn reference_lines(response: &ResponseAnalysis) -> Vec<RefLine> {
         response.unit.as_deref(),
     );
     // The first statistical criterion: E_crit, or Lenth's ME and SME.
-    if let Some(c) = response.criteria.iter().find(|c| c.method != "effect-limit") {
+    if let Some(c) = response
+        .criteria
+        .iter()
+        .find(|c| c.method != "effect-limit")
+    {
         match (c.me, c.sme, c.e_crit) {
             (Some(me), Some(sme), _) => {
-                lines.push(RefLine { name: "ME".into(), value: me });
-                lines.push(RefLine { name: "SME".into(), value: sme });
+                lines.push(RefLine {
+                    name: "ME".into(),
+                    value: me,
+                });
+                lines.push(RefLine {
+                    name: "SME".into(),
+                    value: sme,
+                });
             }
-            (_, _, Some(e)) => lines.push(RefLine { name: "E_crit".into(), value: e }),
+            (_, _, Some(e)) => lines.push(RefLine {
+                name: "E_crit".into(),
+                value: e,
+            }),
             _ => {}
         }
     }
@@ -253,7 +266,11 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
             } else {
                 format!("Lenth's {}", l.name)
             };
-            format!("{what} ({}{})", fixed(l.value, response.decimals + 1), unit_suffix(response))
+            format!(
+                "{what} ({}{})",
+                fixed(l.value, response.decimals + 1),
+                unit_suffix(response)
+            )
         })
         .collect();
     if !described.is_empty() {
@@ -556,11 +573,23 @@ fn run_order_figure(
         .study
         .suitability
         .iter()
-        .filter(|l| evaluated.study.responses.get(l.response).is_some_and(|r| r.id == response.id))
+        .filter(|l| {
+            evaluated
+                .study
+                .responses
+                .get(l.response)
+                .is_some_and(|r| r.id == response.id)
+        })
         .flat_map(|l| {
             [
-                l.min.map(|v| RefLine { name: format!("min {}", setting(v)), value: v }),
-                l.max.map(|v| RefLine { name: format!("max {}", setting(v)), value: v }),
+                l.min.map(|v| RefLine {
+                    name: format!("min {}", setting(v)),
+                    value: v,
+                }),
+                l.max.map(|v| RefLine {
+                    name: format!("max {}", setting(v)),
+                    value: v,
+                }),
             ]
         })
         .flatten()

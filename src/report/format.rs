@@ -18,7 +18,10 @@ pub fn fixed(value: f64, decimals: u32) -> String {
 /// Like [`fixed`] but with an explicit `+` for positive values (signed effects in prose).
 pub fn signed(value: f64, decimals: u32) -> String {
     let text = fixed(value, decimals);
-    if value.is_finite() && !text.starts_with('\u{2212}') && text.chars().any(|c| c.is_ascii_digit() && c != '0') {
+    if value.is_finite()
+        && !text.starts_with('\u{2212}')
+        && text.chars().any(|c| c.is_ascii_digit() && c != '0')
+    {
         format!("+{text}")
     } else {
         text

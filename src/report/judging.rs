@@ -84,13 +84,20 @@ fn sig(x: f64, digits: i32) -> String {
 /// Builds the statistical blocks of a response.
 pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
     let d = r.decimals + 1;
-    let unit = r.unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default();
+    let unit = r
+        .unit
+        .as_deref()
+        .map(|u| format!(" {u}"))
+        .unwrap_or_default();
     let mut out = JudgingText {
         notes: r.notes.clone(),
         ..JudgingText::default()
     };
-    let statistical: Vec<&crate::analysis::judge::CriterionSummary> =
-        r.criteria.iter().filter(|c| c.method != "effect-limit").collect();
+    let statistical: Vec<&crate::analysis::judge::CriterionSummary> = r
+        .criteria
+        .iter()
+        .filter(|c| c.method != "effect-limit")
+        .collect();
     for c in &statistical {
         out.criteria.push(significance_text(r, c));
         out.columns.push(match c.method.as_str() {
@@ -168,7 +175,11 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
             c.t.map_or_else(|| "–".into(), |t| fixed(t, 2)),
             setting(c.df),
             p_text(c.p),
-            if c.s_from_centre_points { "the nominal runs" } else { "the replicated runs" }
+            if c.s_from_centre_points {
+                "the nominal runs"
+            } else {
+                "the replicated runs"
+            }
         ));
     }
     if let Some(dr) = &r.drift {
@@ -201,10 +212,18 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
             if lower { "−" } else { "+" },
             fixed(w.prediction.predicted, r.decimals),
             match (w.min, w.max, w.meets) {
-                (Some(m), _, Some(true)) => format!(", which meets the required minimum {}", setting(m)),
-                (Some(m), _, Some(false)) => format!(", below the required minimum {}: the method does not meet it over the whole domain", setting(m)),
-                (None, Some(m), Some(true)) => format!(", which meets the allowed maximum {}", setting(m)),
-                (None, Some(m), Some(false)) => format!(", above the allowed maximum {}: the method does not meet it over the whole domain", setting(m)),
+                (Some(m), _, Some(true)) =>
+                    format!(", which meets the required minimum {}", setting(m)),
+                (Some(m), _, Some(false)) => format!(
+                    ", below the required minimum {}: the method does not meet it over the whole domain",
+                    setting(m)
+                ),
+                (None, Some(m), Some(true)) =>
+                    format!(", which meets the allowed maximum {}", setting(m)),
+                (None, Some(m), Some(false)) => format!(
+                    ", above the allowed maximum {}: the method does not meet it over the whole domain",
+                    setting(m)
+                ),
                 _ => String::new(),
             },
             if lower { "≥" } else { "≤" },
@@ -229,7 +248,11 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
                 let u = unit_of(study, &c.factor);
                 out.ranges.push([
                     factor_name(study, &c.factor),
-                    if c.basis == "relevance" { "acceptance limit".into() } else { "statistical criterion".into() },
+                    if c.basis == "relevance" {
+                        "acceptance limit".into()
+                    } else {
+                        "statistical criterion".into()
+                    },
                     match (c.low, c.high) {
                         (Some(lo), Some(hi)) => format!("{} to {}{u}", sig(lo, 4), sig(hi, 4)),
                         _ => "–".into(),

@@ -46,7 +46,9 @@ pub enum ReportError {
     #[error(transparent)]
     Figure(#[from] crate::plot::PlotError),
     /// A file that would be written exists already.
-    #[error("{path} already exists; plateau never overwrites a template (remove it or choose an empty folder)")]
+    #[error(
+        "{path} already exists; plateau never overwrites a template (remove it or choose an empty folder)"
+    )]
     Exists {
         /// The path.
         path: String,
@@ -95,8 +97,8 @@ pub fn render_files(
     let user = options.templates.as_deref();
     let env = render::environment(user);
     let value = minijinja::Value::from(minijinja::value::Serde(&ctx));
-    let section = render::render(&env, "section.typ.j2", value.clone())
-        .map_err(|e| e.located(user))?;
+    let section =
+        render::render(&env, "section.typ.j2", value.clone()).map_err(|e| e.located(user))?;
     let report = render::render(&env, "report.typ.j2", value).map_err(|e| e.located(user))?;
     let mut files = vec![
         ("report.typ".to_string(), report.into_bytes()),
@@ -107,10 +109,17 @@ pub fn render_files(
         .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
     files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));
     files.extend(tables::csv_files(evaluated));
-    let record = crate::batch::inputs(&evaluated.study, options.templates.as_deref(), typst_version);
+    let record = crate::batch::inputs(
+        &evaluated.study,
+        options.templates.as_deref(),
+        typst_version,
+    );
     let record = serde_json::to_string_pretty(&record)
         .map_err(|e| ReportError::write(Path::new(crate::batch::RECORD), e))?;
-    files.push((crate::batch::RECORD.to_string(), (record + "\n").into_bytes()));
+    files.push((
+        crate::batch::RECORD.to_string(),
+        (record + "\n").into_bytes(),
+    ));
     if let (Some(logo), Some(name)) = (
         &evaluated.study.report.logo,
         context::logo_file_name(&evaluated.study),
@@ -174,7 +183,9 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
 /// Removes staging folders a killed run left behind (`.<name>.partial-*`, `.<name>.old-*`),
 /// so they never accumulate; the report folder itself is never touched here.
 fn remove_leftovers(parent: &Path, name: &str) {
-    let Ok(entries) = std::fs::read_dir(parent) else { return };
+    let Ok(entries) = std::fs::read_dir(parent) else {
+        return;
+    };
     for entry in entries.flatten() {
         let file = entry.file_name().to_string_lossy().to_string();
         let ours = [".partial-", ".no-packages-", ".old-"]
@@ -191,7 +202,9 @@ fn replace_dir(staging: &Path, dest: &Path) -> Result<(), ReportError> {
     if dest.exists() {
         let old = dest.with_file_name(format!(
             ".{}.old-{}",
-            dest.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default(),
+            dest.file_name()
+                .map(|n| n.to_string_lossy().to_string())
+                .unwrap_or_default(),
             std::process::id()
         ));
         std::fs::rename(dest, &old).map_err(|e| ReportError::write(dest, e))?;

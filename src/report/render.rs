@@ -26,7 +26,10 @@ pub const BUILT_IN: &[(&str, &str)] = &[
         include_str!("../../templates/runsheet.typ.j2"),
     ),
     ("diff.typ.j2", include_str!("../../templates/diff.typ.j2")),
-    ("verify.typ.j2", include_str!("../../templates/verify.typ.j2")),
+    (
+        "verify.typ.j2",
+        include_str!("../../templates/verify.typ.j2"),
+    ),
 ];
 
 /// The variables the templates receive, for lab template authors (exported with them).

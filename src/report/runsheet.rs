@@ -50,10 +50,15 @@ pub fn write_pdf(
         rows,
     };
     let env = render::environment(None);
-    let source = render::render(&env, "runsheet.typ.j2", minijinja::Value::from(minijinja::value::Serde(&ctx)))?;
+    let source = render::render(
+        &env,
+        "runsheet.typ.j2",
+        minijinja::Value::from(minijinja::value::Serde(&ctx)),
+    )?;
     let work = tempdir_near(out)?;
     let result = (|| {
-        std::fs::write(work.join("runsheet.typ"), source).map_err(|e| ReportError::write(&work, e))?;
+        std::fs::write(work.join("runsheet.typ"), source)
+            .map_err(|e| ReportError::write(&work, e))?;
         let packages = work.join(".no-packages");
         std::fs::create_dir_all(&packages).map_err(|e| ReportError::write(&packages, e))?;
         let stamp = typst::unix_midnight(&study.info.date).unwrap_or(0);

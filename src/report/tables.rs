@@ -5,7 +5,9 @@ use crate::pipeline::Evaluated;
 use crate::study::{Levels, Setting};
 
 fn csv_bytes(header: &[String], rows: &[Vec<String>]) -> Vec<u8> {
-    let mut w = csv::WriterBuilder::new().terminator(csv::Terminator::Any(b'\n')).from_writer(Vec::new());
+    let mut w = csv::WriterBuilder::new()
+        .terminator(csv::Terminator::Any(b'\n'))
+        .from_writer(Vec::new());
     let _ = w.write_record(header);
     for row in rows {
         let _ = w.write_record(row);
@@ -51,43 +53,55 @@ pub fn csv_files(evaluated: &Evaluated) -> Vec<(String, Vec<u8>)> {
         .collect();
     files.push(("factors.csv".to_string(), csv_bytes(&header, &rows)));
 
-    let mut header = vec!["run".to_string(), "order".to_string(), "nominal".to_string()];
+    let mut header = vec![
+        "run".to_string(),
+        "order".to_string(),
+        "nominal".to_string(),
+    ];
     header.extend(study.factors.iter().map(|f| f.id.clone()));
     header.extend(study.responses.iter().map(|r| r.id.clone()));
-    let rows: Vec<Vec<String>> = design
-        .runs_in_order()
-        .into_iter()
-        .map(|run| {
-            let mut row = vec![
-                run.id.0.clone(),
-                run.order.to_string(),
-                run.nominal.to_string(),
-            ];
-            row.extend(study.factors.iter().zip(&run.coded).map(|(f, c)| {
-                match f.setting(*c) {
-                    Setting::Value(v) => v.to_string(),
-                    Setting::Level(l) => l,
+    let rows: Vec<Vec<String>> =
+        design
+            .runs_in_order()
+            .into_iter()
+            .map(|run| {
+                let mut row = vec![
+                    run.id.0.clone(),
+                    run.order.to_string(),
+                    run.nominal.to_string(),
+                ];
+                row.extend(study.factors.iter().zip(&run.coded).map(
+                    |(f, c)| match f.setting(*c) {
+                        Setting::Value(v) => v.to_string(),
+                        Setting::Level(l) => l,
+                    },
+                ));
+                for r in 0..study.responses.len() {
+                    let vals = data
+                        .values
+                        .get(&run.id)
+                        .and_then(|v| v.get(r))
+                        .map(|v| v.iter().map(f64::to_string).collect::<Vec<_>>().join(";"))
+                        .unwrap_or_default();
+                    row.push(vals);
                 }
-            }));
-            for r in 0..study.responses.len() {
-                let vals = data
-                    .values
-                    .get(&run.id)
-                    .and_then(|v| v.get(r))
-                    .map(|v| v.iter().map(f64::to_string).collect::<Vec<_>>().join(";"))
-                    .unwrap_or_default();
-                row.push(vals);
-            }
-            row
-        })
-        .collect();
+                row
+            })
+            .collect();
     files.push(("runs.csv".to_string(), csv_bytes(&header, &rows)));
 
     for r in &analysis.responses {
-        let header: Vec<String> = ["term", "factors", "effect", "percent", "estimable", "relevant"]
-            .iter()
-            .map(|s| s.to_string())
-            .collect();
+        let header: Vec<String> = [
+            "term",
+            "factors",
+            "effect",
+            "percent",
+            "estimable",
+            "relevant",
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
         let rows: Vec<Vec<String>> = r
             .effects
             .iter()

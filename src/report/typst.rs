@@ -155,7 +155,11 @@ impl Typst {
 /// creation date). Days from the civil calendar by H. Hinnant's `days_from_civil` algorithm.
 pub fn unix_midnight(date: &str) -> Option<i64> {
     let mut parts = date.split('-').map(str::parse::<i64>);
-    let (y, m, d) = (parts.next()?.ok()?, parts.next()?.ok()?, parts.next()?.ok()?);
+    let (y, m, d) = (
+        parts.next()?.ok()?,
+        parts.next()?.ok()?,
+        parts.next()?.ok()?,
+    );
     let y = if m <= 2 { y - 1 } else { y };
     let era = y.div_euclid(400);
     let yoe = y - era * 400;
@@ -182,6 +186,9 @@ mod tests {
     fn a_missing_binary_names_the_install_command() {
         let err = find(Some(Path::new("/nonexistent/typst"))).unwrap_err();
         let text = err.to_string();
-        assert!(text.contains("cargo install --locked typst-cli@0.15.1"), "{text}");
+        assert!(
+            text.contains("cargo install --locked typst-cli@0.15.1"),
+            "{text}"
+        );
     }
 }

@@ -77,7 +77,9 @@ pub fn study(
             Ok(_) => {}
         }
     }
-    if file.study.source_reference.is_some() && file.study.source != Some(model::SourceKind::Development) {
+    if file.study.source_reference.is_some()
+        && file.study.source != Some(model::SourceKind::Development)
+    {
         c.report(
             &FieldPath::of(&["study", "source-reference"]),
             "a source reference is given but the source is not `development`",
@@ -95,12 +97,36 @@ pub fn study(
     let factor_ids: Vec<&str> = file.factors.iter().map(|f| f.id.as_str()).collect();
     let mut figure_interactions = Vec::new();
     let mut problems = Diagnostics::default();
-    for (i, t) in file.figures.iter().flat_map(|f| f.interactions.iter()).enumerate() {
+    for (i, t) in file
+        .figures
+        .iter()
+        .flat_map(|f| f.interactions.iter())
+        .enumerate()
+    {
         let at = FieldPath::of(&["figures", "interactions"]).index(i);
         match parse_term(t, &factor_ids) {
             Ok(mask) if mask.count_ones() == 2 => figure_interactions.push(mask),
-            Ok(_) => problems.push(Diagnostic::field(file_name, &at, format!("`{t}` is not a two-factor interaction"), Some("expected two factor ids joined by ×, e.g. temp×ph".to_string())).at(Locator::new(text).value(&at.0))),
-            Err(e) => problems.push(Diagnostic::field(file_name, &at, e, Some(format!("expected two factor ids joined by ×, from: {}", factor_ids.join(", ")))).at(Locator::new(text).value(&at.0))),
+            Ok(_) => problems.push(
+                Diagnostic::field(
+                    file_name,
+                    &at,
+                    format!("`{t}` is not a two-factor interaction"),
+                    Some("expected two factor ids joined by ×, e.g. temp×ph".to_string()),
+                )
+                .at(Locator::new(text).value(&at.0)),
+            ),
+            Err(e) => problems.push(
+                Diagnostic::field(
+                    file_name,
+                    &at,
+                    e,
+                    Some(format!(
+                        "expected two factor ids joined by ×, from: {}",
+                        factor_ids.join(", ")
+                    )),
+                )
+                .at(Locator::new(text).value(&at.0)),
+            ),
         }
     }
     if !problems.is_empty() {
@@ -131,7 +157,12 @@ fn check_date(c: &mut Checker<'_>, date: &str) {
     let field = FieldPath::of(&["study", "date"]);
     let parts: Vec<u32> = date.split('-').filter_map(|p| p.parse().ok()).collect();
     let valid = match parts.as_slice() {
-        [y, m, d] => (1900..=9999).contains(y) && (1..=12).contains(m) && *d >= 1 && *d <= days_in_month(*y, *m),
+        [y, m, d] => {
+            (1900..=9999).contains(y)
+                && (1..=12).contains(m)
+                && *d >= 1
+                && *d <= days_in_month(*y, *m)
+        }
         _ => false,
     };
     if !valid {
@@ -148,7 +179,9 @@ pub fn days_in_month(year: u32, month: u32) -> u32 {
     match month {
         1 | 3 | 5 | 7 | 8 | 10 | 12 => 31,
         4 | 6 | 9 | 11 => 30,
-        2 if (year.is_multiple_of(4) && !year.is_multiple_of(100)) || year.is_multiple_of(400) => 29,
+        2 if (year.is_multiple_of(4) && !year.is_multiple_of(100)) || year.is_multiple_of(400) => {
+            29
+        }
         2 => 28,
         _ => 0,
     }
@@ -192,7 +225,9 @@ fn factors(c: &mut Checker<'_>, specs: &[model::FactorSpec]) -> Vec<Factor> {
                     (
                         a,
                         match f.distribution {
-                            None | Some(model::DistributionSpec::Rectangular) => Distribution::Rectangular,
+                            None | Some(model::DistributionSpec::Rectangular) => {
+                                Distribution::Rectangular
+                            }
                             Some(model::DistributionSpec::Triangular) => Distribution::Triangular,
                             Some(model::DistributionSpec::Normal) => Distribution::Normal95,
                         },
@@ -328,7 +363,10 @@ fn design(
         c.report(
             &at.key("nominal-runs"),
             "`nominal-runs: random` needs a randomised run order",
-            Some("add `randomize: {seed: <number>}`, or choose spread, first, last or {every: k}".into()),
+            Some(
+                "add `randomize: {seed: <number>}`, or choose spread, first, last or {every: k}"
+                    .into(),
+            ),
         );
     }
     let k = factors.len();
@@ -347,8 +385,12 @@ fn design(
         replicates: spec.replicates.unwrap_or(1) as usize,
         seed,
         drift_correction: spec.drift_correction.map(|d| match d {
-            model::DriftCorrectionSpec::Additive => crate::analysis::drift::CorrectionMode::Additive,
-            model::DriftCorrectionSpec::Relative => crate::analysis::drift::CorrectionMode::Relative,
+            model::DriftCorrectionSpec::Additive => {
+                crate::analysis::drift::CorrectionMode::Additive
+            }
+            model::DriftCorrectionSpec::Relative => {
+                crate::analysis::drift::CorrectionMode::Relative
+            }
         }),
     };
     let kind_name = kind_text(spec.kind);
@@ -367,7 +409,12 @@ fn design(
     };
     let is_list = matches!(spec.runs, Some(model::RunsSpec::List(_)));
     if spec.kind != DesignKind::Explicit {
-        not_here(c, "allow-nonorthogonal", spec.allow_nonorthogonal.is_some(), "only an explicit design can be non-orthogonal");
+        not_here(
+            c,
+            "allow-nonorthogonal",
+            spec.allow_nonorthogonal.is_some(),
+            "only an explicit design can be non-orthogonal",
+        );
         if is_list {
             c.report(
                 &at.key("runs"),
@@ -377,16 +424,41 @@ fn design(
         }
     }
     if !matches!(spec.kind, DesignKind::FractionalFactorial) {
-        not_here(c, "generators", spec.generators.is_some(), "generators belong to kind fractional-factorial");
-        not_here(c, "resolution", spec.resolution.is_some(), "resolution belongs to kind fractional-factorial");
+        not_here(
+            c,
+            "generators",
+            spec.generators.is_some(),
+            "generators belong to kind fractional-factorial",
+        );
+        not_here(
+            c,
+            "resolution",
+            spec.resolution.is_some(),
+            "resolution belongs to kind fractional-factorial",
+        );
     }
     if !matches!(spec.kind, DesignKind::PlackettBurman | DesignKind::Youden) {
-        not_here(c, "dummies", spec.dummies.is_some(), "dummy columns belong to kinds plackett-burman and youden");
+        not_here(
+            c,
+            "dummies",
+            spec.dummies.is_some(),
+            "dummy columns belong to kinds plackett-burman and youden",
+        );
     }
     match spec.kind {
         DesignKind::FullFactorial => {
-            not_here(c, "runs", count.is_some(), "a full factorial of k factors has 2^k runs");
-            not_here(c, "foldover", spec.foldover.is_some(), "a full factorial has no aliasing to break");
+            not_here(
+                c,
+                "runs",
+                count.is_some(),
+                "a full factorial of k factors has 2^k runs",
+            );
+            not_here(
+                c,
+                "foldover",
+                spec.foldover.is_some(),
+                "a full factorial has no aliasing to break",
+            );
             if k > MAX_FULL_FACTORIAL_FACTORS {
                 c.report(
                     &at.key("kind"),
@@ -437,11 +509,18 @@ fn design(
             }
         }
         DesignKind::Youden => {
-            not_here(c, "runs", count.is_some(), "the Youden–Steiner design has 8 runs");
+            not_here(
+                c,
+                "runs",
+                count.is_some(),
+                "the Youden–Steiner design has 8 runs",
+            );
             if k > 7 {
                 c.report(
                     &at.key("kind"),
-                    format!("the Youden–Steiner design has 7 columns, but the study has {k} factors"),
+                    format!(
+                        "the Youden–Steiner design has 7 columns, but the study has {k} factors"
+                    ),
                     Some("expected at most 7 factors; use kind plackett-burman for more".into()),
                 );
             } else {
@@ -451,10 +530,30 @@ fn design(
             }
         }
         DesignKind::Explicit => {
-            not_here(c, "center-points", spec.center_points.is_some(), "list every run, nominal runs as rows with each factor at 0");
-            not_here(c, "replicates", spec.replicates.is_some(), "list every run of an explicit design");
-            not_here(c, "foldover", spec.foldover.is_some(), "list the mirror-image runs yourself");
-            not_here(c, "runs", count.is_some(), "expected `runs:` as a list of `{run: ID, <factor id>: -1 | 0 | 1}`");
+            not_here(
+                c,
+                "center-points",
+                spec.center_points.is_some(),
+                "list every run, nominal runs as rows with each factor at 0",
+            );
+            not_here(
+                c,
+                "replicates",
+                spec.replicates.is_some(),
+                "list every run of an explicit design",
+            );
+            not_here(
+                c,
+                "foldover",
+                spec.foldover.is_some(),
+                "list the mirror-image runs yourself",
+            );
+            not_here(
+                c,
+                "runs",
+                count.is_some(),
+                "expected `runs:` as a list of `{run: ID, <factor id>: -1 | 0 | 1}`",
+            );
             request.explicit_runs = explicit_runs(c, spec, factors, &at.key("runs"));
         }
     }
@@ -517,7 +616,10 @@ fn fractional(
             c.report(
                 &at.key("generators"),
                 "no generators are given",
-                Some("expected at least one, e.g. `E = ABCD`; with none, use kind full-factorial".into()),
+                Some(
+                    "expected at least one, e.g. `E = ABCD`; with none, use kind full-factorial"
+                        .into(),
+                ),
             );
             return;
         }
@@ -541,9 +643,10 @@ fn fractional(
                     .iter()
                     .map(|g| fraction::parse_generator(g, &letter_refs))
                     .collect();
-                match generators.map_err(|e| e.to_string()).and_then(|g| {
-                    fraction::Fraction::new(k, g).map_err(|e| e.to_string())
-                }) {
+                match generators
+                    .map_err(|e| e.to_string())
+                    .and_then(|g| fraction::Fraction::new(k, g).map_err(|e| e.to_string()))
+                {
                     Ok(f) => {
                         request.generator_texts =
                             entry.generators.iter().map(|g| (*g).to_string()).collect();
@@ -555,7 +658,11 @@ fn fractional(
                         f
                     }
                     Err(e) => {
-                        c.report(&at.key("kind"), format!("internal catalogue error: {e}"), None);
+                        c.report(
+                            &at.key("kind"),
+                            format!("internal catalogue error: {e}"),
+                            None,
+                        );
                         return;
                     }
                 }
@@ -579,27 +686,33 @@ fn fractional(
         }
     };
     if let (Some(wanted), Some(got)) = (spec.resolution, built.resolution)
-        && got < wanted && spec.generators.is_some() {
-            c.report(
+        && got < wanted
+        && spec.generators.is_some()
+    {
+        c.report(
                 &at.key("resolution"),
                 format!("the generators give resolution {got}, below the {wanted} asked for"),
                 Some("expected generators whose shortest defining word is long enough, or a lower resolution".into()),
             );
-        }
+    }
     if let Some(n) = count
-        && spec.generators.is_some() && n != built.runs() {
-            c.report(
-                &at.key("runs"),
-                format!("the generators give {} runs, not {n}", built.runs()),
-                Some(format!("expected runs: {} or no `runs`", built.runs())),
-            );
-        }
+        && spec.generators.is_some()
+        && n != built.runs()
+    {
+        c.report(
+            &at.key("runs"),
+            format!("the generators give {} runs, not {n}", built.runs()),
+            Some(format!("expected runs: {} or no `runs`", built.runs())),
+        );
+    }
     if request.foldover && built.resolution != Some(3) {
         c.report(
             &at.key("foldover"),
             format!(
                 "fold-over is for resolution III designs; this one has resolution {}",
-                built.resolution.map_or("(none)".to_string(), |r| r.to_string())
+                built
+                    .resolution
+                    .map_or("(none)".to_string(), |r| r.to_string())
             ),
             Some("expected `foldover` only with a resolution III fraction".into()),
         );
@@ -646,13 +759,14 @@ fn explicit_runs(
         }
         let order = row.get("order").and_then(Value::as_u64).map(|o| o as usize);
         if let Some(o) = order
-            && !orders.insert(o) {
-                c.report(
-                    &here.key("order"),
-                    format!("run order {o} is given twice"),
-                    Some("expected each position in the run order once".into()),
-                );
-            }
+            && !orders.insert(o)
+        {
+            c.report(
+                &here.key("order"),
+                format!("run order {o} is given twice"),
+                Some("expected each position in the run order once".into()),
+            );
+        }
         for key in row.keys() {
             if key != "run" && key != "order" && !ids.contains(&key.as_str()) {
                 let hint = closest(key, ids.iter().copied())
@@ -661,7 +775,10 @@ fn explicit_runs(
                 c.report(
                     &here.key(key),
                     format!("unknown factor `{key}`"),
-                    Some(format!("{hint}expected one of the factor ids: {}", ids.join(", "))),
+                    Some(format!(
+                        "{hint}expected one of the factor ids: {}",
+                        ids.join(", ")
+                    )),
                 );
             }
         }
@@ -776,7 +893,11 @@ fn responses(
     out
 }
 
-type Rules = (Vec<EffectLimit>, Vec<SignificanceRule>, Vec<SuitabilityLimit>);
+type Rules = (
+    Vec<EffectLimit>,
+    Vec<SignificanceRule>,
+    Vec<SuitabilityLimit>,
+);
 
 fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> Rules {
     use crate::analysis::criterion::Method;
@@ -794,7 +915,10 @@ fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> 
             c.report(
                 &at.key("response"),
                 format!("unknown response `{}`", a.response),
-                Some(format!("{hint}expected one of the response ids: {}", ids.join(", "))),
+                Some(format!(
+                    "{hint}expected one of the response ids: {}",
+                    ids.join(", ")
+                )),
             );
             continue;
         };
@@ -839,13 +963,14 @@ fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> 
             });
         }
         if let (Some(min), Some(max)) = (a.min, a.max)
-            && min >= max {
-                c.report(
-                    &at.key("min"),
-                    format!("min ({min}) is not below max ({max})"),
-                    Some("expected min < max".into()),
-                );
-            }
+            && min >= max
+        {
+            c.report(
+                &at.key("min"),
+                format!("min ({min}) is not below max ({max})"),
+                Some("expected min < max".into()),
+            );
+        }
         if a.min.is_some() || a.max.is_some() {
             suitability.push(SuitabilityLimit {
                 response,
@@ -876,7 +1001,12 @@ fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> 
             only_for(c, "s", sig.s.is_some(), "precision");
             only_for(c, "df", sig.df.is_some(), "precision");
             only_for(c, "source", sig.source.is_some(), "precision");
-            only_for(c, "determinations", sig.determinations.is_some(), "precision");
+            only_for(
+                c,
+                "determinations",
+                sig.determinations.is_some(),
+                "precision",
+            );
         }
         if method != Method::Negligible {
             only_for(c, "terms", sig.terms.is_some(), "negligible");
@@ -898,13 +1028,23 @@ fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> 
                 None => c.report(
                     &here.key("terms"),
                     "method negligible needs the list of terms assumed negligible",
-                    Some("expected e.g. `terms: [temp×ph×flow]` (factor ids joined by × or *)".into()),
+                    Some(
+                        "expected e.g. `terms: [temp×ph×flow]` (factor ids joined by × or *)"
+                            .into(),
+                    ),
                 ),
                 Some(list) => {
                     for (j, t) in list.iter().enumerate() {
                         match parse_term(t, &factor_ids) {
                             Ok(mask) => terms.push((t.clone(), mask)),
-                            Err(e) => c.report(&here.key("terms").index(j), e, Some(format!("expected factor ids joined by × or *, from: {}", factor_ids.join(", ")))),
+                            Err(e) => c.report(
+                                &here.key("terms").index(j),
+                                e,
+                                Some(format!(
+                                    "expected factor ids joined by × or *, from: {}",
+                                    factor_ids.join(", ")
+                                )),
+                            ),
                         }
                     }
                 }

@@ -40,7 +40,11 @@ impl FieldPath {
 
     /// A path from keys and indices, e.g. `FieldPath::of(&["factors"]).index(2)`.
     pub fn of(keys: &[&str]) -> Self {
-        Self(keys.iter().map(|k| Segment::Key((*k).to_string())).collect())
+        Self(
+            keys.iter()
+                .map(|k| Segment::Key((*k).to_string()))
+                .collect(),
+        )
     }
 }
 
@@ -141,11 +145,16 @@ impl Diagnostics {
     /// Sorted by position so the user reads them top to bottom; exact duplicates removed.
     pub fn sorted(mut self) -> Self {
         self.0.sort_by(|a, b| {
-            (a.line.unwrap_or(usize::MAX), a.column.unwrap_or(0), &a.field).cmp(&(
-                b.line.unwrap_or(usize::MAX),
-                b.column.unwrap_or(0),
-                &b.field,
-            ))
+            (
+                a.line.unwrap_or(usize::MAX),
+                a.column.unwrap_or(0),
+                &a.field,
+            )
+                .cmp(&(
+                    b.line.unwrap_or(usize::MAX),
+                    b.column.unwrap_or(0),
+                    &b.field,
+                ))
         });
         self.0.dedup();
         self

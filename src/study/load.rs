@@ -97,13 +97,19 @@ pub fn decode(bytes: &[u8], file_name: &str) -> Result<String, Diagnostics> {
     }
 }
 
-fn from_yaml<T: serde::de::DeserializeOwned>(text: &str, file_name: &str) -> Result<T, Diagnostics> {
+fn from_yaml<T: serde::de::DeserializeOwned>(
+    text: &str,
+    file_name: &str,
+) -> Result<T, Diagnostics> {
     let whole = |problem: String, expected: Option<String>, at: Option<(usize, usize)>| {
         Diagnostics(vec![
             Diagnostic::field(file_name, &FieldPath::root(), problem, expected).at(at),
         ])
     };
-    if text.lines().all(|l| l.trim().is_empty() || l.trim_start().starts_with('#')) {
+    if text
+        .lines()
+        .all(|l| l.trim().is_empty() || l.trim_start().starts_with('#'))
+    {
         return Err(whole(
             "the study file is empty".into(),
             Some("expected a study: `schema: 1`, `study:`, `factors:`, `design:`, `responses:` (`plateau new` writes a starter file)".into()),
@@ -181,7 +187,10 @@ fn scalar_at(text: &str, line: usize, column: usize) -> Option<String> {
 /// saphyr reports tabs in indentation with a generic message; this names the fault plainly.
 fn first_tab_indent(text: &str) -> Option<(usize, usize)> {
     for (n, line) in text.lines().enumerate() {
-        let indent: String = line.chars().take_while(|c| *c == ' ' || *c == '\t').collect();
+        let indent: String = line
+            .chars()
+            .take_while(|c| *c == ' ' || *c == '\t')
+            .collect();
         if let Some(pos) = indent.find('\t') {
             if line.trim_start().starts_with('#') || line.trim().is_empty() {
                 continue;
@@ -200,15 +209,18 @@ fn strip_position_prefix(message: &str) -> String {
         _ => m,
     };
     if let Some(rest) = m.strip_prefix("line ")
-        && let Some((_, after)) = rest.split_once(": ") {
-            return after.to_string();
-        }
+        && let Some((_, after)) = rest.split_once(": ")
+    {
+        return after.to_string();
+    }
     m.to_string()
 }
 
 fn yaml_problem(message: &str, scalar: Option<&str>) -> (String, Option<String>) {
     let lower = message.to_lowercase();
-    let shown = scalar.map(|s| format!("`{s}`")).unwrap_or_else(|| "the value".into());
+    let shown = scalar
+        .map(|s| format!("`{s}`"))
+        .unwrap_or_else(|| "the value".into());
     if lower.contains("duplicate") {
         let key = message
             .split("key:")
@@ -220,12 +232,17 @@ fn yaml_problem(message: &str, scalar: Option<&str>) -> (String, Option<String>)
             format!("duplicate key `{key}`"),
             Some("each key may appear once in a mapping".into()),
         )
-    } else if lower.contains("non-finite") || scalar.is_some_and(|s| s.parse::<f64>().is_ok_and(|v| !v.is_finite())) {
+    } else if lower.contains("non-finite")
+        || scalar.is_some_and(|s| s.parse::<f64>().is_ok_and(|v| !v.is_finite()))
+    {
         (
             format!("{shown} is not a finite number"),
             Some("expected a finite decimal number such as 99.5".into()),
         )
-    } else if lower.contains("invalid floating point") || lower.contains("invalid number") || lower.contains("invalid integer") {
+    } else if lower.contains("invalid floating point")
+        || lower.contains("invalid number")
+        || lower.contains("invalid integer")
+    {
         (
             format!("{shown} is not a decimal number"),
             Some("expected a plain decimal number such as 16, 0.5 or 1000 (no hexadecimal, no `_` separators, no units)".into()),

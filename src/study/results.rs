@@ -60,8 +60,14 @@ pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics>
     for row in rows {
         if !planned.contains(&row.run) {
             problems.push(row.at.diagnostic(
-                format!("results for run `{}`, which the design does not have", row.run),
-                Some(format!("expected one of the planned runs {}", run_range(design))),
+                format!(
+                    "results for run `{}`, which the design does not have",
+                    row.run
+                ),
+                Some(format!(
+                    "expected one of the planned runs {}",
+                    run_range(design)
+                )),
             ));
             continue;
         }
@@ -89,8 +95,14 @@ pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics>
         if !planned.contains(&e.run) {
             problems.push(study.diagnostic(
                 &FieldPath::of(&["excluded"]).index(i).key("run"),
-                format!("run `{}` is excluded but the design does not have it", e.run),
-                Some(format!("expected one of the planned runs {}", run_range(design))),
+                format!(
+                    "run `{}` is excluded but the design does not have it",
+                    e.run
+                ),
+                Some(format!(
+                    "expected one of the planned runs {}",
+                    run_range(design)
+                )),
             ));
         }
     }
@@ -188,10 +200,7 @@ struct Row {
     at: Locus,
 }
 
-fn inline_rows(
-    study: &Study,
-    runs: &[BTreeMap<String, Value>],
-) -> Result<Vec<Row>, Diagnostics> {
+fn inline_rows(study: &Study, runs: &[BTreeMap<String, Value>]) -> Result<Vec<Row>, Diagnostics> {
     let ids: Vec<&str> = study.responses.iter().map(|r| r.id.as_str()).collect();
     let mut problems = Diagnostics::default();
     let mut rows = Vec::new();
@@ -209,7 +218,10 @@ fn inline_rows(
                 problems.push(study.diagnostic(
                     &here.key(key),
                     format!("unknown response `{key}`"),
-                    Some(format!("{hint}expected one of the response ids: {}", ids.join(", "))),
+                    Some(format!(
+                        "{hint}expected one of the response ids: {}",
+                        ids.join(", ")
+                    )),
                 ));
             }
         }
@@ -222,19 +234,23 @@ fn inline_rows(
         for id in &ids {
             let field = here.key(id);
             if let Some(Value::Array(items)) = entry.get(*id)
-                && items.len() != declared {
-                    problems.push(study.diagnostic(
-                        &field,
-                        format!("run `{run}` lists {} determinations of `{id}`", items.len()),
-                        Some(if declared == 1 {
-                            format!("expected one number, or declare `determinations: {}` under `results`", items.len())
-                        } else {
-                            format!("expected {declared} determinations, as declared")
-                        }),
-                    ));
-                    values.push(Vec::new());
-                    continue;
-                }
+                && items.len() != declared
+            {
+                problems.push(study.diagnostic(
+                    &field,
+                    format!("run `{run}` lists {} determinations of `{id}`", items.len()),
+                    Some(if declared == 1 {
+                        format!(
+                            "expected one number, or declare `determinations: {}` under `results`",
+                            items.len()
+                        )
+                    } else {
+                        format!("expected {declared} determinations, as declared")
+                    }),
+                ));
+                values.push(Vec::new());
+                continue;
+            }
             let vals: Option<Vec<f64>> = match entry.get(*id) {
                 Some(Value::Number(n)) => n.as_f64().map(|v| vec![v]),
                 Some(Value::Array(items)) => items.iter().map(Value::as_f64).collect(),
@@ -247,11 +263,16 @@ fn inline_rows(
                     "the value is not a finite number",
                     Some("expected a finite number".into()),
                 )),
-                None => problems.push(study.diagnostic(
-                    &field,
-                    format!("run `{run}` has no value for `{id}`"),
-                    Some("expected a number (or a list of numbers for several determinations)".into()),
-                )),
+                None => problems.push(
+                    study.diagnostic(
+                        &field,
+                        format!("run `{run}` has no value for `{id}`"),
+                        Some(
+                            "expected a number (or a list of numbers for several determinations)"
+                                .into(),
+                        ),
+                    ),
+                ),
             }
         }
         let d = study.diagnostic(&here.key("run"), "", None);
@@ -284,14 +305,15 @@ fn csv_rows(
         .unwrap_or_else(|| PathBuf::from("."));
     let path = base.join(file);
     let name = path.display().to_string();
-    let one = |line: Option<usize>, field: &str, problem: String, expected: Option<String>| Diagnostic {
-        file: name.clone(),
-        line,
-        column: None,
-        field: field.to_string(),
-        problem,
-        expected,
-    };
+    let one =
+        |line: Option<usize>, field: &str, problem: String, expected: Option<String>| Diagnostic {
+            file: name.clone(),
+            line,
+            column: None,
+            field: field.to_string(),
+            problem,
+            expected,
+        };
     let bytes = match read_limited(&path, MAX_RESULTS_BYTES, &name) {
         Ok(b) => b,
         Err(mut d) => {
@@ -318,7 +340,14 @@ fn csv_rows(
         .from_reader(text.as_bytes());
     let header: Vec<String> = match reader.headers() {
         Ok(h) => h.iter().map(str::to_string).collect(),
-        Err(e) => return Err(Diagnostics(vec![one(Some(1), "", format!("cannot read the CSV header ({e})"), None)])),
+        Err(e) => {
+            return Err(Diagnostics(vec![one(
+                Some(1),
+                "",
+                format!("cannot read the CSV header ({e})"),
+                None,
+            )]));
+        }
     };
     let response_ids: Vec<&str> = study.responses.iter().map(|r| r.id.as_str()).collect();
     let factor_ids: Vec<&str> = study.factors.iter().map(|f| f.id.as_str()).collect();
@@ -345,10 +374,23 @@ fn csv_rows(
     let mut seen = BTreeSet::new();
     for h in &header {
         if !seen.insert(h.as_str()) {
-            problems.push(one(Some(1), h, format!("column `{h}` appears twice"), Some("expected each column once".into())));
+            problems.push(one(
+                Some(1),
+                h,
+                format!("column `{h}` appears twice"),
+                Some("expected each column once".into()),
+            ));
         }
-        if h != "run" && h != "order" && !response_ids.contains(&h.as_str()) && !factor_ids.contains(&h.as_str()) {
-            let all: Vec<&str> = response_ids.iter().chain(factor_ids.iter()).copied().collect();
+        if h != "run"
+            && h != "order"
+            && !response_ids.contains(&h.as_str())
+            && !factor_ids.contains(&h.as_str())
+        {
+            let all: Vec<&str> = response_ids
+                .iter()
+                .chain(factor_ids.iter())
+                .copied()
+                .collect();
             let hint = closest(h, all.iter().copied())
                 .map(|b| format!("did you mean `{b}`? "))
                 .unwrap_or_default();
@@ -381,7 +423,12 @@ fn csv_rows(
             Ok(r) => r,
             Err(e) => {
                 let line = e.position().map(|p| p.line() as usize);
-                problems.push(one(line, "", "the row cannot be read as CSV (an unclosed quote?)".to_string(), Some(format!("expected comma-separated fields ({e})"))));
+                problems.push(one(
+                    line,
+                    "",
+                    "the row cannot be read as CSV (an unclosed quote?)".to_string(),
+                    Some(format!("expected comma-separated fields ({e})")),
+                ));
                 continue;
             }
         };
@@ -392,8 +439,10 @@ fn csv_rows(
         if record.len() != header.len() {
             let decimal_comma = record.len() > header.len()
                 && record.iter().zip(record.iter().skip(1)).any(|(a, b)| {
-                    !a.is_empty() && a.chars().all(|c| c.is_ascii_digit() || c == '-')
-                        && !b.is_empty() && b.chars().all(|c| c.is_ascii_digit())
+                    !a.is_empty()
+                        && a.chars().all(|c| c.is_ascii_digit() || c == '-')
+                        && !b.is_empty()
+                        && b.chars().all(|c| c.is_ascii_digit())
                 });
             problems.push(one(
                 line,
@@ -409,7 +458,12 @@ fn csv_rows(
         }
         let run_text = record.get(run_col).unwrap_or_default();
         if run_text.is_empty() {
-            problems.push(one(line, "run", "empty run id".into(), Some("expected the run id of the planned run".into())));
+            problems.push(one(
+                line,
+                "run",
+                "empty run id".into(),
+                Some("expected the run id of the planned run".into()),
+            ));
             continue;
         }
         let run = RunId(run_text.to_string());
@@ -419,7 +473,12 @@ fn csv_rows(
             let cell = record.get(col).unwrap_or_default();
             match parse_number(cell) {
                 Ok(v) => values.push(vec![v]),
-                Err(why) => problems.push(one(line, id, format!("run `{run}`: {why}"), Some(number_hint(cell)))),
+                Err(why) => problems.push(one(
+                    line,
+                    id,
+                    format!("run `{run}`: {why}"),
+                    Some(number_hint(cell)),
+                )),
             }
         }
         if let Some(planned_run) = planned.get(&run) {
@@ -430,12 +489,17 @@ fn csv_rows(
                         line,
                         "order",
                         format!("run `{run}`: order `{cell}` differs from the planned run order"),
-                        Some(format!("expected {} as planned (or leave the `order` column out)", planned_run.order)),
+                        Some(format!(
+                            "expected {} as planned (or leave the `order` column out)",
+                            planned_run.order
+                        )),
                     ));
                 }
             }
             for (j, f) in study.factors.iter().enumerate() {
-                let Some(col) = header.iter().position(|h| h == &f.id) else { continue };
+                let Some(col) = header.iter().position(|h| h == &f.id) else {
+                    continue;
+                };
                 let cell = record.get(col).unwrap_or_default();
                 let expected = planned_run
                     .coded
@@ -480,7 +544,9 @@ fn setting_matches(cell: &str, expected: &Setting, coded: Option<i8>) -> bool {
     match expected {
         Setting::Value(v) => match cell.parse::<f64>() {
             // Either real units or coded levels (the run sheet's --coded form).
-            Ok(x) => (x - v).abs() <= 1e-9 * v.abs().max(1.0) || coded.is_some_and(|c| x == f64::from(c)),
+            Ok(x) => {
+                (x - v).abs() <= 1e-9 * v.abs().max(1.0) || coded.is_some_and(|c| x == f64::from(c))
+            }
             Err(_) => false,
         },
         Setting::Level(l) => cell == l || coded.is_some_and(|c| cell.parse::<i8>() == Ok(c)),
@@ -510,7 +576,9 @@ fn number_hint(cell: &str) -> String {
         "expected a finite decimal number such as 99.5".into()
     } else if cell.contains(',') {
         "expected `.` as the decimal separator (e.g. 99.5), with columns separated by commas".into()
-    } else if cell.chars().any(|c| c.is_alphabetic() || c == '%') && cell.chars().any(|c| c.is_ascii_digit()) {
+    } else if cell.chars().any(|c| c.is_alphabetic() || c == '%')
+        && cell.chars().any(|c| c.is_ascii_digit())
+    {
         "expected the number alone, without a unit (units belong in the response definition)".into()
     } else {
         "expected a finite decimal number such as 99.5".into()

@@ -55,7 +55,13 @@ pub fn check(instance: &Value, text: &str, file_name: &str) -> Diagnostics {
         // Indices and numeric keys look the same in a pointer; decide by the data itself.
         let path = resolve_indices(instance, path);
         let schema_path = error.schema_path().as_str().to_string();
-        for d in describe(error.kind(), &path, &schema_path, error.instance(), file_name) {
+        for d in describe(
+            error.kind(),
+            &path,
+            &schema_path,
+            error.instance(),
+            file_name,
+        ) {
             let position = match &d.1 {
                 Some(key) => locator.key(&path.0, key),
                 None => locator.value(&path.0),
@@ -191,7 +197,12 @@ fn describe(
                         Some(text)
                     };
                     (
-                        Diagnostic::field(file, &field, format!("unknown field `{name}`"), expected),
+                        Diagnostic::field(
+                            file,
+                            &field,
+                            format!("unknown field `{name}`"),
+                            expected,
+                        ),
                         Some(name.clone()),
                     )
                 })
@@ -211,7 +222,9 @@ fn describe(
         }
         ValidationErrorKind::Type { kind } => {
             let expected = match kind {
-                jsonschema::error::TypeKind::Single(t) => format!("expected {}", json_type(&t.to_string())),
+                jsonschema::error::TypeKind::Single(t) => {
+                    format!("expected {}", json_type(&t.to_string()))
+                }
                 jsonschema::error::TypeKind::Multiple(ts) => format!(
                     "expected {}",
                     ts.iter()
@@ -227,7 +240,9 @@ fn describe(
             let expected = if path.to_string() == "design.runs" {
                 "expected a number of runs (fractional-factorial, plackett-burman); only `kind: explicit` takes a list of runs, and a full factorial takes no `runs`".to_string()
             } else if matches!(instance, Value::Bool(_)) && expected.contains("text") {
-                format!("{expected}; YAML reads words such as y, n, yes, no, on, off, true and false as true or false: put the text in quotes")
+                format!(
+                    "{expected}; YAML reads words such as y, n, yes, no, on, off, true and false as true or false: put the text in quotes"
+                )
             } else if path.0.is_empty() {
                 "expected a mapping of the study sections (schema, study, factors, design, responses, ...)".to_string()
             } else {
@@ -259,9 +274,10 @@ fn describe(
             "the list is too short".to_string(),
             Some(format!("expected at least {limit} item(s)")),
         ),
-        ValidationErrorKind::MinLength { .. } => {
-            plain("the text is empty".to_string(), Some("expected a non-empty text".into()))
-        }
+        ValidationErrorKind::MinLength { .. } => plain(
+            "the text is empty".to_string(),
+            Some("expected a non-empty text".into()),
+        ),
         ValidationErrorKind::MaxLength { limit } => plain(
             "the text is too long".to_string(),
             Some(format!("expected at most {limit} characters")),
