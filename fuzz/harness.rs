@@ -122,7 +122,11 @@ fn csv_fixture() -> CsvFixture {
     // The example study is valid; failing to plan it is a harness bug, not a finding.
     let (study, design) = plateau::pipeline::plan(&path)
         .unwrap_or_else(|e| panic!("the fixed example study no longer plans: {e:?}"));
-    CsvFixture { scratch, study, design }
+    CsvFixture {
+        scratch,
+        study,
+        design,
+    }
 }
 
 /// Results CSV reader: the HPLC example study with arbitrary bytes as its `results.csv`, then
@@ -135,7 +139,9 @@ pub fn results_csv(data: &[u8]) -> Reached {
             return Reached::Nothing;
         }
         let (study, design) = (&fixture.study, &fixture.design);
-        let Ok(values) = results::read(study, design) else { return Reached::Planned };
+        let Ok(values) = results::read(study, design) else {
+            return Reached::Planned;
+        };
         match plateau::analysis::analyse(study, design, &values) {
             Ok(_) => Reached::Analysed,
             Err(_) => Reached::Read,
@@ -264,6 +270,9 @@ enum Values {
     /// Whole f64 bit patterns.
     Raw,
 }
+
+/// Run ids and, per run, per response, the determinations.
+type InlineResults<'a> = (&'a [String], &'a [Vec<Vec<f64>>]);
 
 #[derive(Debug, Clone)]
 struct StudySpec {
@@ -410,7 +419,7 @@ impl StudySpec {
     }
 
     /// The study file; with `results`, inline results for the given run ids.
-    fn yaml(&self, results: Option<(&[String], &[Vec<Vec<f64>>])>) -> String {
+    fn yaml(&self, results: Option<InlineResults<'_>>) -> String {
         let k = self.factors.len();
         let mut y = String::new();
         y.push_str("schema: 1\nstudy:\n  id: FZ-1\n  title: Fuzzed study\n  method: FZ method 1\n");
@@ -578,13 +587,13 @@ impl StudySpec {
             };
             y.push_str(" }\n");
         }
-        if let (Some(e), Some((ids, _))) = (self.exclude, results) {
-            if let Some(run) = ids.get(usize::from(e) % ids.len().max(1)) {
-                let _ = writeln!(
-                    y,
-                    "excluded:\n  - {{ run: {run}, reason: fuzzed exclusion }}"
-                );
-            }
+        if let (Some(e), Some((ids, _))) = (self.exclude, results)
+            && let Some(run) = ids.get(usize::from(e) % ids.len().max(1))
+        {
+            let _ = writeln!(
+                y,
+                "excluded:\n  - {{ run: {run}, reason: fuzzed exclusion }}"
+            );
         }
         if let Some((ids, values)) = results {
             y.push_str("results:\n");

@@ -56,13 +56,25 @@ pub fn read_limited(path: &Path, limit: u64, file_name: &str) -> Result<Vec<u8>,
             Some("expected a study file (.yaml)".into()),
         ));
     }
-    if meta.len() > limit {
-        return Err(whole_file(
-            format!("the file is too large ({} bytes)", meta.len()),
+    let too_large = |size: String| {
+        whole_file(
+            format!("the file is too large ({size} bytes)"),
             Some(format!("expected at most {limit} bytes")),
-        ));
+        )
+    };
+    if meta.len() > limit {
+        return Err(too_large(meta.len().to_string()));
     }
-    std::fs::read(path).map_err(|e| whole_file(io_problem(&e), None))
+    // The size in the metadata is not a bound: a device such as /dev/zero, a pipe or a file
+    // still growing reports 0 or less than it yields, so the read itself stops at the limit.
+    let file = std::fs::File::open(path).map_err(|e| whole_file(io_problem(&e), None))?;
+    let mut bytes = Vec::new();
+    std::io::Read::read_to_end(&mut std::io::Read::take(file, limit + 1), &mut bytes)
+        .map_err(|e| whole_file(io_problem(&e), None))?;
+    if bytes.len() as u64 > limit {
+        return Err(too_large(format!("more than {limit}")));
+    }
+    Ok(bytes)
 }
 
 /// A short lowercase description of an I/O error.
@@ -124,6 +136,9 @@ fn from_yaml<T: serde::de::DeserializeOwned>(
         ));
     }
     let mut options = serde_saphyr::Options::default();
+    // YAML 1.2 core booleans only: `y`, `n`, `yes`, `no`, `on`, `off` stay text, so a
+    // response `y` or the levels `[on, off]` are not turned into true/false.
+    options.strict_booleans = true;
     if let Some(budget) = options.budget.as_mut() {
         budget.max_nodes = MAX_YAML_NODES;
         budget.max_aliases = 10_000;
