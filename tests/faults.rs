@@ -253,3 +253,36 @@ fn a_percent_effect_against_a_mean_of_zero_is_an_error_not_a_division() {
     );
     assert!(run.stderr.contains("unit: absolute"), "{}", run.stderr);
 }
+
+#[test]
+fn a_large_full_factorial_reports_with_the_largest_effects_drawn() {
+    // 2^9: 511 effects, more than a figure can label; the plots show the upper tail.
+    let dir = tempfile::tempdir().unwrap();
+    let mut text = String::from(
+        "schema: 1\nstudy: { id: L-1, title: large, method: m, analyst: a, date: 2026-01-01 }\nfactors:\n",
+    );
+    for j in 1..=9 {
+        text.push_str(&format!(
+            "  - {{ id: f{j}, name: F{j}, nominal: 10, delta: 1 }}\n"
+        ));
+    }
+    text.push_str("design: { kind: full-factorial }\nresponses:\n  - { id: c, name: C, percent-of: mean }\nresults: { file: r.csv }\n");
+    let mut csv = String::from("run,c\n");
+    for i in 0..512 {
+        csv.push_str(&format!(
+            "{},{}\n",
+            i + 1,
+            100.0 + f64::from((i * 37 % 11) as u8) / 10.0
+        ));
+    }
+    std::fs::write(dir.path().join("s.yaml"), text).unwrap();
+    std::fs::write(dir.path().join("r.csv"), csv).unwrap();
+    plateau(&["report", "--no-pdf"])
+        .arg_path(&dir.path().join("s.yaml"))
+        .ok();
+    let section = std::fs::read_to_string(dir.path().join("s-report/section.typ")).unwrap();
+    assert!(
+        section.contains("Only the 63 largest are drawn"),
+        "caption names the cut"
+    );
+}

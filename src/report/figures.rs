@@ -219,15 +219,22 @@ fn level_text(factor: &Factor, coded: i8) -> String {
     }
 }
 
+/// Most effects drawn in one half-normal plot or bar chart.
+pub const MAX_DRAWN: usize = 63;
+
 fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> {
     // Daniel (1959): the i-th smallest of m absolute effects is plotted against the
     // half-normal quantile of (i − 0.5)/m; ties keep design order (stable sort).
     let mut effects: Vec<&Effect> = response.effects.iter().collect();
     effects.sort_by(|a, b| a.effect.abs().total_cmp(&b.effect.abs()));
     let scores = half_normal_scores(effects.len());
+    // Scores come from all m effects; a large design draws only its upper tail, where the real
+    // effects stand out, so the labels stay readable.
+    let skip = effects.len().saturating_sub(MAX_DRAWN);
     let points = effects
         .iter()
         .zip(scores)
+        .skip(skip)
         .map(|(e, score)| plot::HalfNormalPoint {
             label: short_label(e),
             abs_effect: e.effect.abs(),
@@ -256,6 +263,12 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
             String::new()
         },
     );
+    if response.effects.len() > MAX_DRAWN {
+        caption.push_str(&format!(
+            " Only the {MAX_DRAWN} largest are drawn; their scores are those among all {}.",
+            response.effects.len()
+        ));
+    }
     let described: Vec<String> = lines
         .iter()
         .map(|l| {
@@ -313,9 +326,11 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
 }
 
 fn effect_bars_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> {
-    let bars = response
-        .effects
-        .iter()
+    let mut largest: Vec<&Effect> = response.effects.iter().collect();
+    largest.sort_by(|a, b| b.percent.abs().total_cmp(&a.percent.abs()));
+    largest.truncate(MAX_DRAWN);
+    let bars = largest
+        .into_iter()
         .map(|e| plot::Bar {
             label: short_label(e),
             value: e.percent,
@@ -331,8 +346,13 @@ fn effect_bars_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
         x_title: "|effect| (% of the reference)".to_string(),
     })?;
     let caption = format!(
-        "Absolute percent effects on {}, largest first{}.",
+        "Absolute percent effects on {}, largest first{}{}.",
         response.name,
+        if response.effects.len() > MAX_DRAWN {
+            format!(" (the {MAX_DRAWN} largest of {})", response.effects.len())
+        } else {
+            String::new()
+        },
         match limit {
             Some(l) => format!(
                 "; the dashed line is the acceptance limit of {} % and bars beyond it are drawn in red",

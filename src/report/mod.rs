@@ -130,7 +130,14 @@ pub fn render_files(
             .parent()
             .unwrap_or_else(|| Path::new("."))
             .join(logo);
-        let bytes = std::fs::read(&path).map_err(|e| ReportError::write(&path, e))?;
+        // Bounded like the check's 2 MiB test: the check read the size from the metadata, which
+        // a device or a growing file does not honour.
+        let shown = path.display().to_string();
+        let bytes =
+            crate::study::load::read_limited(&path, 2 * 1024 * 1024, &shown).map_err(|d| {
+                let cause = d.0.first().map(|d| d.problem.clone()).unwrap_or_default();
+                ReportError::write(&path, cause)
+            })?;
         files.push((name, bytes));
     }
     Ok(files)

@@ -106,7 +106,8 @@ pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics>
             ));
         }
     }
-    let missing_at = || match &spec.file {
+    // Located once: each `study.diagnostic` re-parses the whole study text.
+    let missing_locus = match &spec.file {
         Some(file) => {
             let field = FieldPath::of(&["results", "file"]);
             let d = study.diagnostic(&field, "", None);
@@ -118,6 +119,7 @@ pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics>
         }
         None => Locus::results(study),
     };
+    let missing_at = || missing_locus.clone();
     for run in &design.runs {
         let excluded = study.excluded.iter().any(|e| e.run == run.id);
         match values.get(&run.id) {
@@ -165,6 +167,7 @@ fn run_range(design: &Design) -> String {
 }
 
 /// Where a result came from, for messages.
+#[derive(Clone)]
 struct Locus {
     file: String,
     position: Option<(usize, usize)>,
@@ -204,6 +207,8 @@ fn inline_rows(study: &Study, runs: &[BTreeMap<String, Value>]) -> Result<Vec<Ro
     let ids: Vec<&str> = study.responses.iter().map(|r| r.id.as_str()).collect();
     let mut problems = Diagnostics::default();
     let mut rows = Vec::new();
+    // One parse of the study text for every row's position (not one per row).
+    let locator = super::locate::Locator::new(&study.text);
     for (i, entry) in runs.iter().enumerate() {
         let here = FieldPath::of(&["results", "runs"]).index(i);
         let Some(run) = entry.get("run").and_then(run_id) else {
@@ -275,13 +280,12 @@ fn inline_rows(study: &Study, runs: &[BTreeMap<String, Value>]) -> Result<Vec<Ro
                 ),
             }
         }
-        let d = study.diagnostic(&here.key("run"), "", None);
         rows.push(Row {
             run,
             values,
             at: Locus {
                 file: study.file_name.clone(),
-                position: d.line.zip(d.column),
+                position: locator.value(&here.key("run").0),
                 field: here.key("run").to_string(),
             },
         });
