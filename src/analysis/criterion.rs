@@ -13,11 +13,12 @@ use super::quantile::{StatError, t_quantile};
 /// that is enough.
 pub const MIN_ERROR_EFFECTS: usize = 1;
 
-/// Fewest contrasts for Lenth's and Dong's methods: with m = 3, Lenth's d = m/3 = 1.
-/// Both methods assume most effects are inactive, which needs several contrasts to mean
-/// anything; fewer than three cannot even have a majority of inactive ones beside one
-/// active effect.
-pub const MIN_PSEUDO_CONTRASTS: usize = 3;
+/// Fewest contrasts for Lenth's and Dong's methods: seven, the contrasts of an 8-run
+/// design. Both methods estimate the error from the effects they assume inactive, which
+/// needs a majority of inactive effects and enough of them for a median; Lenth (1989)
+/// tabulates and simulates his method from m = 7 contrasts upward (from memory), and the
+/// same floor is used for Dong's method.
+pub const MIN_PSEUDO_CONTRASTS: usize = 7;
 
 /// Note used when an error estimate is exactly zero.
 pub const NOTE_ALL_ZERO: &str = "the method cannot judge: all effects are zero (PSE = 0)";
@@ -505,8 +506,8 @@ mod tests {
     #[test]
     fn dong_keeps_effects_equal_to_the_cut_off() {
         // median |E| = 1, s0 = 1.5, cut-off 3.75: the effect of exactly 3.75 is kept (≤).
-        let c = Critical::dong(&[1.0, 1.0, 1.0, 3.75, 0.5], 0.05).unwrap();
-        assert_eq!(c.n_used, Some(5));
+        let c = Critical::dong(&[1.0, 1.0, 1.0, 3.75, 0.5, 0.5, 1.0], 0.05).unwrap();
+        assert_eq!(c.n_used, Some(7));
     }
 
     #[test]
@@ -627,10 +628,10 @@ mod tests {
             StatError::TooFew {
                 what: "effects for a pseudo standard error",
                 got: 2,
-                need: 3
+                need: 7
             }
         );
-        assert!(err.to_string().contains("need at least 3"));
+        assert!(err.to_string().contains("need at least 7"));
         assert!(Critical::dong(&[1.0], 0.05).is_err());
     }
 

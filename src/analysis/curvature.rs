@@ -84,6 +84,76 @@ pub fn curvature_with_error(
     build(factorial, centre, s, df, false)
 }
 
+/// Curvature from the fitted model: the model's prediction at the nominal setting ŷ₀ (from
+/// the two-level runs; with numeric factors only this is the intercept) against the nominal
+/// runs' mean ȳ_C. d = ŷ₀ − ȳ_C; SE = s·√(x₀ᵀ(XᵀX)⁻¹x₀ + 1/n_C); t = d/SE on the error's
+/// df; SS = d²/(x₀ᵀ(XᵀX)⁻¹x₀ + 1/n_C). For an orthogonal design with numeric factors
+/// x₀ᵀ(XᵀX)⁻¹x₀ = 1/n_F and this is Montgomery's test (Design and Analysis of Experiments,
+/// ch. 6, "Addition of center points to the 2^k design").
+///
+/// `n_centre_eff` is the number of independent values behind ȳ_C (n_C, or 1 when a drift
+/// correction expressed every nominal run at the first one's level). `s = 0` or `df = 0`
+/// give no test (the note says why).
+pub fn from_model(
+    predicted: f64,
+    variance_factor: f64,
+    n_factorial: usize,
+    centre: &[f64],
+    n_centre_eff: f64,
+    s: f64,
+    df: f64,
+) -> Result<Curvature, StatError> {
+    check(centre, "centre-point values", 1)?;
+    if !predicted.is_finite() || !variance_factor.is_finite() || variance_factor <= 0.0 {
+        return Err(StatError::NotFinite {
+            what: "the model prediction at the nominal setting",
+            value: predicted,
+        });
+    }
+    let yc = mean(centre);
+    let d = predicted - yc;
+    let factor = variance_factor + 1.0 / n_centre_eff.max(1.0);
+    let se = s * factor.sqrt();
+    let ss = d * d / factor;
+    let testable = s > 0.0 && df > 0.0 && s.is_finite();
+    let (t, p, f, note) = if testable {
+        let t = d / se;
+        (
+            Some(t),
+            Some(t_sf_two_sided(t, df)?),
+            Some(ss / (s * s)),
+            None,
+        )
+    } else {
+        (
+            None,
+            None,
+            None,
+            Some(if df > 0.0 {
+                "pure error is zero: the curvature cannot be tested".to_string()
+            } else {
+                "no pure error (no replicated runs and fewer than two nominal runs): the curvature cannot be tested".to_string()
+            }),
+        )
+    };
+    Ok(Curvature {
+        n_factorial,
+        n_centre: centre.len(),
+        factorial_mean: predicted,
+        centre_mean: yc,
+        difference: d,
+        s,
+        df,
+        s_from_centre_points: false,
+        se,
+        t,
+        p,
+        ss_curvature: ss,
+        f,
+        note,
+    })
+}
+
 fn build(
     factorial: &[f64],
     centre: &[f64],

@@ -105,6 +105,97 @@ pub fn worst_case(
     })
 }
 
+/// Most factors whose corners [`worst_corner`] searches (2^16 corners).
+pub const MAX_CORNER_FACTORS: usize = 16;
+
+/// Worst case of a model with interactions: the prediction b₀ + Σ_T (E_T/2)·x_T over every
+/// corner of the factors involved (x_T the product of the factors' ±1 levels), the lowest
+/// (or highest) kept. `terms` are (factor ids, effect); a main effect has one id. For main
+/// effects only this equals [`worst_case`]. Ties keep the first corner in standard order.
+pub fn worst_corner(
+    intercept: f64,
+    terms: &[(Vec<String>, f64)],
+    direction: Direction,
+) -> Result<WorstCase, StatError> {
+    if !intercept.is_finite() {
+        return Err(StatError::NotFinite {
+            what: "the intercept",
+            value: intercept,
+        });
+    }
+    let mut factors: Vec<String> = Vec::new();
+    for (ids, e) in terms {
+        if !e.is_finite() {
+            return Err(StatError::NotFinite {
+                what: "an effect",
+                value: *e,
+            });
+        }
+        for id in ids {
+            if !factors.contains(id) {
+                factors.push(id.clone());
+            }
+        }
+    }
+    if factors.len() > MAX_CORNER_FACTORS {
+        return Err(StatError::Shape(format!(
+            "{} factors in the worst-case corner search; at most {MAX_CORNER_FACTORS}",
+            factors.len()
+        )));
+    }
+    let index: Vec<Vec<usize>> = terms
+        .iter()
+        .map(|(ids, _)| {
+            ids.iter()
+                .filter_map(|id| factors.iter().position(|f| f == id))
+                .collect()
+        })
+        .collect();
+    let mut best: Option<(f64, u32)> = None;
+    for corner in 0u32..(1u32 << factors.len()) {
+        let level = |j: usize| if corner >> j & 1 == 1 { 1.0 } else { -1.0 };
+        let value = intercept
+            + terms
+                .iter()
+                .zip(&index)
+                .map(|((_, e), js)| e / 2.0 * js.iter().map(|&j| level(j)).product::<f64>())
+                .sum::<f64>();
+        let better = match (best, direction) {
+            (None, _) => true,
+            (Some((b, _)), Direction::Lower) => value < b,
+            (Some((b, _)), Direction::Higher) => value > b,
+        };
+        if better {
+            best = Some((value, corner));
+        }
+    }
+    let (predicted, corner) = best.unwrap_or((intercept, 0));
+    let main = |id: &str| {
+        terms
+            .iter()
+            .find(|(ids, _)| ids.len() == 1 && ids[0] == id)
+            .map_or(0.0, |(_, e)| *e)
+    };
+    Ok(WorstCase {
+        mean: intercept,
+        direction,
+        predicted,
+        factors: factors
+            .iter()
+            .enumerate()
+            .map(|(j, id)| WorstFactor {
+                label: id.clone(),
+                effect: main(id),
+                level: if corner >> j & 1 == 1 {
+                    WorseLevel::High
+                } else {
+                    WorseLevel::Low
+                },
+            })
+            .collect(),
+    })
+}
+
 /// Non-significance interval of a quantitative factor, assuming the response is linear in
 /// it: the width over which |E| stays below E_crit is w = (E_crit/|E|)·(high − low), and the
 /// interval is nominal ± w/2 (Vander Heyden et al., J. Pharm. Biomed. Anal. 24 (2001)
@@ -227,6 +318,23 @@ mod tests {
             ("temperature".into(), 0.4),
             ("flow".into(), 0.0),
         ]
+    }
+
+    #[test]
+    fn worst_corner_with_main_effects_only_equals_the_closed_form() {
+        let terms: Vec<(Vec<String>, f64)> =
+            effects().into_iter().map(|(l, e)| (vec![l], e)).collect();
+        let w = worst_corner(2.5, &terms, Direction::Lower).unwrap();
+        assert!((w.predicted - 1.9).abs() < 1e-12);
+    }
+
+    #[test]
+    fn worst_corner_counts_an_interaction() {
+        // y = 10 + 0.5·A·B only (E_AB = 1): the lowest corner is A = −B, ŷ = 9.5 (hand check).
+        let terms = vec![(vec!["A".to_string(), "B".to_string()], 1.0)];
+        let w = worst_corner(10.0, &terms, Direction::Lower).unwrap();
+        assert!((w.predicted - 9.5).abs() < 1e-12);
+        assert_ne!(w.factors[0].level, w.factors[1].level);
     }
 
     #[test]

@@ -10,8 +10,12 @@ pub mod decision;
 pub mod drift;
 pub mod effects;
 pub mod judge;
+pub mod model;
 pub mod quantile;
 pub mod text;
+pub mod verdict;
+
+pub use verdict::{FollowUp, Note, Outcome, UnresolvedChain, Verdict};
 
 use serde::Serialize;
 
@@ -28,12 +32,25 @@ pub struct Analysis {
     pub design: DesignSummary,
     /// One entry per response.
     pub responses: Vec<ResponseAnalysis>,
-    /// Factors with a relevant main effect on any assay response (ids, file order).
+    /// Factors of a clean term (main effect or interaction) beyond the practical limit on
+    /// any assay response (ids, file order): these need control.
     pub non_robust_factors: Vec<String>,
-    /// Factors with a significant main effect on any assay response (ids, file order).
+    /// Factors of a clean significant term on any assay response (ids, file order).
     pub significant_factors: Vec<String>,
+    /// Alias chains beyond the limit on an assay response that the design cannot resolve,
+    /// with the follow-up runs that would.
+    pub unresolved: Vec<UnresolvedSummary>,
     /// Where the numbers come from.
     pub provenance: Provenance,
+}
+
+/// An unresolved alias chain of one response.
+#[derive(Debug, Clone, Serialize)]
+pub struct UnresolvedSummary {
+    /// Response id.
+    pub response: String,
+    /// The chain.
+    pub chain: UnresolvedChain,
 }
 
 /// Identification of the study.
@@ -119,20 +136,33 @@ pub struct ResponseAnalysis {
     pub name: String,
     /// Unit.
     pub unit: Option<String>,
-    /// The value percent effects are taken against.
+    /// The value percent effects are taken against (percent effects are undefined when it
+    /// is zero).
     pub reference: f64,
-    /// `nominal-mean` (mean of the nominal runs) or `design-mean` (mean of the two-level runs).
+    /// `nominal-mean` (mean of the nominal runs used) or `model-intercept` (b₀ of the fit).
     pub reference_kind: String,
-    /// Mean of the two-level runs.
+    /// The model's intercept b₀: the predicted response at the centre of the coded cube
+    /// (the mean of the two-level runs when the design is orthogonal).
+    pub intercept: f64,
+    /// The same as `intercept` (kept for readers of earlier analysis documents).
     pub design_mean: f64,
-    /// Mean of the nominal runs, if there are any.
+    /// Mean of the nominal runs used, if there are any.
     pub nominal_mean: Option<f64>,
+    /// The model's prediction at the nominal setting (categorical factors at their nominal
+    /// level), if there are nominal runs.
+    pub nominal_prediction: Option<f64>,
     /// Decimal places of the data (declared or found), for the report.
     pub decimals: u32,
     /// `assay` or `suitability`.
     pub role: String,
     /// Every run's value in run order (raw and, with a drift correction, corrected).
     pub values: Vec<RunValue>,
+    /// The fitted model.
+    pub fit: FitSummary,
+    /// The error that judges effects (whole runs repeated at one setting).
+    pub error: judge::ErrorEstimate,
+    /// Spread of repeat determinations within runs, when there are several per run.
+    pub repeatability: Option<judge::Repeatability>,
     /// Effects, main effects first.
     pub effects: Vec<Effect>,
     /// The practical limits declared for this response.
@@ -153,8 +183,25 @@ pub struct ResponseAnalysis {
     pub uncertainty: Option<judge::UncertaintySummary>,
     /// The verdict.
     pub verdict: Verdict,
-    /// Remarks the reader must see (excluded runs, least squares, limits of the design).
-    pub notes: Vec<String>,
+    /// Facts the reader must see (excluded runs, least squares, drift, references), as data.
+    pub notes: Vec<Note>,
+}
+
+/// The one fitted model of a response.
+#[derive(Debug, Clone, Serialize)]
+pub struct FitSummary {
+    /// Two-level run means fitted.
+    pub runs: usize,
+    /// Terms with a coefficient (intercept not counted).
+    pub terms: usize,
+    /// Residual degrees of freedom.
+    pub df_residual: usize,
+    /// Residual sum of squares.
+    pub rss: f64,
+    /// XᵀX diagonal: every SE(E) equals 2s/√N.
+    pub orthogonal: bool,
+    /// Columns the runs used cannot estimate (labels).
+    pub dropped: Vec<String>,
 }
 
 /// One run's value of a response.
@@ -185,8 +232,11 @@ pub struct Effect {
     pub order: u32,
     /// E = ȳ(+) − ȳ(−), in the response's unit.
     pub effect: f64,
-    /// 100·E / reference.
-    pub percent: f64,
+    /// 100·E / |reference|; `null` when the reference is zero.
+    pub percent: Option<f64>,
+    /// SE of this effect over that of an effect of an orthogonal design with the same runs,
+    /// √(N·[(XᵀX)⁻¹]_jj): 1 when the runs used are orthogonal, above 1 after an exclusion.
+    pub se_ratio: f64,
     /// True when no other term of the order shown shares the column.
     pub estimable: bool,
     /// True for a dummy column (no factor assigned; its effect estimates error).
@@ -198,6 +248,9 @@ pub struct Effect {
     /// |effect| above the first statistical criterion's E_crit (Lenth: ME); `null` when none
     /// applies or the column estimates error.
     pub significant: Option<bool>,
+    /// This effect's critical effect under the first statistical criterion (its E_crit times
+    /// `se_ratio`).
+    pub e_crit: Option<f64>,
     /// One verdict per statistical criterion, in `criteria` order of the significance rules.
     pub significance: Vec<Option<bool>>,
     /// Lenth only: |effect| above the simultaneous margin of error SME.
@@ -213,23 +266,6 @@ pub struct LimitSummary {
     pub unit: LimitUnit,
     /// Where it comes from.
     pub basis: Option<String>,
-}
-
-/// The verdict on one response.
-#[derive(Debug, Clone, Serialize)]
-pub struct Verdict {
-    /// Practical verdict: true when no main effect is relevant; `null` when no limit was
-    /// declared.
-    pub robust: Option<bool>,
-    /// Statistical verdict: true when no main effect is significant; `null` when no
-    /// statistical criterion was declared (or it cannot judge).
-    pub no_significant_effect: Option<bool>,
-    /// Factors (ids) whose main effect is significant.
-    pub significant_factors: Vec<String>,
-    /// Factors (ids) whose main effect is relevant.
-    pub relevant_factors: Vec<String>,
-    /// Interactions (labels) that are relevant.
-    pub relevant_interactions: Vec<String>,
 }
 
 /// Analyses a study whose design and measurements are known.
@@ -252,6 +288,16 @@ pub fn analyse(
         return Err(problems);
     }
     let assay = |r: &&ResponseAnalysis| r.role == "assay";
+    let unresolved: Vec<UnresolvedSummary> = responses
+        .iter()
+        .filter(assay)
+        .flat_map(|r| {
+            r.verdict.unresolved.iter().map(|c| UnresolvedSummary {
+                response: r.id.clone(),
+                chain: c.clone(),
+            })
+        })
+        .collect();
     let non_robust: Vec<String> = study
         .factors
         .iter()
@@ -284,6 +330,7 @@ pub fn analyse(
         responses,
         non_robust_factors: non_robust,
         significant_factors: significant,
+        unresolved,
         provenance: Provenance {
             plateau_version: env!("CARGO_PKG_VERSION").to_string(),
             study_file: study.path.file_name().map_or_else(

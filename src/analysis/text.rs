@@ -64,7 +64,7 @@ pub fn tables(evaluated: &Evaluated) -> String {
                 e.label,
                 " ".repeat(pad),
                 fixed(e.effect, r.decimals + 1),
-                fixed(e.percent, PERCENT_DECIMALS),
+                fixed(e.percent.unwrap_or(f64::NAN), PERCENT_DECIMALS),
                 match e.relevant {
                     Some(true) => "yes",
                     Some(false) => "no",

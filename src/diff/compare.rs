@@ -408,7 +408,7 @@ fn response_outputs(or: &ResponseAnalysis, nr: &ResponseAnalysis, out: &mut Outp
     let scale = or.reference.abs().max(nr.reference.abs());
     let value = |e: &Effect| EffectValue {
         effect: e.effect,
-        percent: e.percent,
+        percent: e.percent.unwrap_or(f64::NAN),
     };
     let flip = |effect: Option<&str>, verdict: &str, a: Option<bool>, b: Option<bool>| {
         (a != b).then(|| VerdictFlip {
@@ -426,7 +426,11 @@ fn response_outputs(or: &ResponseAnalysis, nr: &ResponseAnalysis, out: &mut Outp
             Some(oe) => {
                 // Percent effects live on a scale of 100 (% of the reference).
                 if !same_number(oe.effect, ne.effect, scale)
-                    || !same_number(oe.percent, ne.percent, 100.0)
+                    || !same_number(
+                        oe.percent.unwrap_or(f64::NAN),
+                        ne.percent.unwrap_or(f64::NAN),
+                        100.0,
+                    )
                 {
                     out.effects.push(EffectChange {
                         response: nr.id.clone(),

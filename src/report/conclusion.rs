@@ -4,7 +4,7 @@
 //! were relevant, and what the study cannot show; it never says "robust" without the ranges and
 //! the criterion (Vander Heyden et al., J. Pharm. Biomed. Anal. 24 (2001) 723–753, §7).
 
-use crate::analysis::{Analysis, Effect, ResponseAnalysis};
+use crate::analysis::{Analysis, Effect, Note, ResponseAnalysis};
 use crate::study::{LimitUnit, Study};
 
 use super::format::{fixed, setting};
@@ -77,7 +77,7 @@ fn effect_words(response: &ResponseAnalysis, e: &Effect) -> String {
     format!(
         "{}{unit} ({} %)",
         fixed(e.effect, response.decimals + 1),
-        fixed(e.percent, PERCENT_DECIMALS)
+        fixed(e.percent.unwrap_or(f64::NAN), PERCENT_DECIMALS)
     )
 }
 
@@ -210,7 +210,7 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
             if relevant.is_empty() {
                 let largest = mains
                     .iter()
-                    .max_by(|a, b| a.percent.abs().total_cmp(&b.percent.abs()));
+                    .max_by(|a, b| a.effect.abs().total_cmp(&b.effect.abs()));
                 let mut s = format!(
                     "{}: no main effect exceeded the acceptance criterion {criterion}",
                     response.name
@@ -331,8 +331,8 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
             if c.basis == "significance" && both {
                 continue;
             }
-            match (&c.statement, c.low, c.high) {
-                (Some(text), _, _) => out.push(format!("{text}.")),
+            match (precaution_text(study, c), c.low, c.high) {
+                (Some(text), _, _) => out.push(text),
                 (None, Some(lo), Some(hi)) => ranges.push(format!(
                     "{name} {} to {}{unit} ({} criterion; tested {} to {}{unit})",
                     setting(round_sig(lo, 4)),
@@ -513,4 +513,75 @@ fn round_sig(x: f64, digits: i32) -> f64 {
     }
     let scale = 10f64.powi(digits - 1 - x.abs().log10().floor() as i32);
     (x * scale).round() / scale
+}
+
+/// A typed analysis note in words, for the judging section.
+pub fn note_text(study: &Study, response: &ResponseAnalysis, note: &Note) -> String {
+    let unit = response
+        .unit
+        .as_deref()
+        .map(|u| format!(" {u}"))
+        .unwrap_or_default();
+    let d = response.decimals + 1;
+    match note {
+        Note::ExcludedRun { run, reason } => {
+            format!("Run {run} was excluded from the evaluation: {reason}.")
+        }
+        Note::LeastSquares { dropped } if dropped.is_empty() => "The runs used are not orthogonal (a run was excluded, or the matrix was given so): effects are least-squares estimates, E = 2b, and each has its own standard error.".to_string(),
+        Note::LeastSquares { dropped } => format!(
+            "The runs used are not orthogonal: effects are least-squares estimates, E = 2b, each with its own standard error; these columns cannot be estimated from the runs used: {}.",
+            and_list(dropped)
+        ),
+        Note::DriftCorrected { mode } => format!(
+            "Effects were computed on {} drift-corrected values; the run table shows the measured and the corrected values.",
+            match mode {
+                crate::analysis::drift::CorrectionMode::Additive => "additively",
+                crate::analysis::drift::CorrectionMode::Relative => "relatively",
+            }
+        ),
+        Note::DriftNotCorrected { slope, p } => format!(
+            "The nominal runs drift ({}{unit} per run in the run order, p = {}) and no correction was applied: the drift inflates the error estimate and may bias effects that follow the run order.",
+            fixed(*slope, d + 1),
+            p_text(*p)
+        ),
+        Note::PercentUndefined { reference_kind, .. } => format!(
+            "Percent effects are not defined: the {} is zero.",
+            if reference_kind == "nominal-mean" { "mean of the nominal runs" } else { "model intercept" }
+        ),
+        Note::PercentLimitNotApplicable => "The percent limit cannot be applied because percent effects are not defined; the response is not judged against it.".to_string(),
+        Note::NegativeReference { reference } => format!(
+            "The reference is negative ({}{unit}): percent effects are taken against its magnitude, so each has the sign of its effect.",
+            fixed(*reference, d)
+        ),
+        Note::CurvatureNumericOnly => "Nominal runs hold each categorical factor at its nominal level; the curvature check compares them with the model's prediction at that level and so covers the numeric factors only.".to_string(),
+        Note::NoCurvatureAllCategorical => "Every factor is categorical: the nominal runs repeat one corner of the design, so there is no curvature to check.".to_string(),
+        Note::DeterminationsAveraged { determinations } => format!(
+            "The {determinations} determinations of each run were averaged; their spread is the repeatability of the measurement and is not used as the error that judges effects."
+        ),
+        Note::RangeClipped { factor } => format!(
+            "The operating range of {} was cut back to the tested range: plateau does not extrapolate beyond the levels studied.",
+            factor_name(study, factor)
+        ),
+    }
+}
+
+/// A p-value as printed: three decimals, or `< 0.001`.
+pub fn p_text(p: f64) -> String {
+    if !p.is_finite() {
+        "–".into()
+    } else if p < 0.001 {
+        "< 0.001".into()
+    } else {
+        format!("{p:.3}")
+    }
+}
+
+/// The precaution for a categorical factor that needs control, or `None` for a numeric one.
+pub fn precaution_text(study: &Study, c: &crate::analysis::judge::ControlRange) -> Option<String> {
+    let [nominal, alternative] = c.levels.as_ref()?;
+    let name = factor_name(study, &c.factor);
+    Some(format!(
+        "{name} changes the result between {nominal} and {alternative}: use only the level(s) qualified in this study; another {} needs its own comparison.",
+        name.to_lowercase()
+    ))
 }

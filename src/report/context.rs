@@ -952,7 +952,7 @@ fn responses_text(evaluated: &Evaluated, figures: &[Figure]) -> Vec<ResponseText
                 .map(|e| EffectRow {
                     term: e.label.clone(),
                     effect: fixed(e.effect, r.decimals + 1),
-                    percent: fixed(e.percent, PERCENT_DECIMALS),
+                    percent: fixed(e.percent.unwrap_or(f64::NAN), PERCENT_DECIMALS),
                     limit: limit_cell(e.relevant),
                     relevant: match e.relevant {
                         Some(true) => "yes".into(),

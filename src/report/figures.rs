@@ -327,13 +327,13 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
 
 fn effect_bars_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> {
     let mut largest: Vec<&Effect> = response.effects.iter().collect();
-    largest.sort_by(|a, b| b.percent.abs().total_cmp(&a.percent.abs()));
+    largest.sort_by(|a, b| pct(b).abs().total_cmp(&pct(a).abs()));
     largest.truncate(MAX_DRAWN);
     let bars = largest
         .into_iter()
         .map(|e| plot::Bar {
             label: short_label(e),
-            value: e.percent,
+            value: pct(e),
         })
         .collect();
     let limit = percent_limit(response);
@@ -362,14 +362,14 @@ fn effect_bars_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
         }
     );
     let mut sorted: Vec<&Effect> = response.effects.iter().collect();
-    sorted.sort_by(|a, b| b.percent.abs().total_cmp(&a.percent.abs()));
+    sorted.sort_by(|a, b| pct(b).abs().total_cmp(&pct(a).abs()));
     let alt = format!(
         "Bar chart of the absolute percent effects on {}: {}.",
         response.name,
         sorted
             .iter()
             .take(5)
-            .map(|e| format!("{} {} %", short_label(e), fixed(e.percent.abs(), 2)))
+            .map(|e| format!("{} {} %", short_label(e), fixed(pct(e).abs(), 2)))
             .collect::<Vec<_>>()
             .join(", ")
             + if sorted.len() > 5 {
@@ -551,7 +551,7 @@ fn interaction_figures(
                 note,
                 fixed(e.effect, d),
                 unit_suffix(response),
-                fixed(e.percent, 2)
+                fixed(pct(e), 2)
             ),
             alt,
         });
@@ -708,4 +708,9 @@ mod tests {
             None
         );
     }
+}
+
+/// A percent effect, NaN when undefined (a zero reference): NaN sorts last and prints as "–".
+fn pct(e: &crate::analysis::Effect) -> f64 {
+    e.percent.unwrap_or(f64::NAN)
 }

@@ -90,7 +90,11 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         .map(|u| format!(" {u}"))
         .unwrap_or_default();
     let mut out = JudgingText {
-        notes: r.notes.clone(),
+        notes: r
+            .notes
+            .iter()
+            .map(|n| crate::report::conclusion::note_text(study, r, n))
+            .collect(),
         ..JudgingText::default()
     };
     let statistical: Vec<&crate::analysis::judge::CriterionSummary> = r
@@ -242,8 +246,8 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         }
     }
     for c in &r.control_ranges {
-        match &c.statement {
-            Some(s) => out.precautions.push(format!("{s}.")),
+        match crate::report::conclusion::precaution_text(study, c) {
+            Some(s) => out.precautions.push(s),
             None => {
                 let u = unit_of(study, &c.factor);
                 out.ranges.push([

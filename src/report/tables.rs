@@ -110,7 +110,7 @@ pub fn csv_files(evaluated: &Evaluated) -> Vec<(String, Vec<u8>)> {
                     e.label.clone(),
                     e.factors.join(" "),
                     e.effect.to_string(),
-                    e.percent.to_string(),
+                    e.percent.map(|p| p.to_string()).unwrap_or_default(),
                     e.estimable.to_string(),
                     e.relevant.map_or_else(String::new, |b| b.to_string()),
                 ]

@@ -1022,6 +1022,33 @@ fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> 
                 }
             }
         }
+        if let Some(df) = sig.df.filter(|df| *df < 1.0) {
+            c.report(
+                &here.key("df"),
+                format!("{df} degrees of freedom are too few for a t quantile"),
+                Some(
+                    "expected at least 1 (the degrees of freedom of the standard deviation `s`)"
+                        .into(),
+                ),
+            );
+        }
+        // Run means average the results' determinations: the precision rule's n is that number
+        // unless stated, and a different number would judge effects with the wrong SE.
+        let results_n = file.results.as_ref().and_then(|r| r.determinations);
+        if method == Method::Precision
+            && let (Some(stated), Some(measured)) = (sig.determinations, results_n)
+            && stated != measured
+        {
+            c.report(
+                &here.key("determinations"),
+                format!(
+                    "the rule averages {stated} determinations per run, but `results.determinations` is {measured}"
+                ),
+                Some(format!(
+                    "expected {measured} (or leave `determinations` out: it defaults to the results' determinations)"
+                )),
+            );
+        }
         let mut terms = Vec::new();
         if method == Method::Negligible {
             match &sig.terms {
@@ -1058,7 +1085,7 @@ fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> 
             s: sig.s,
             df: sig.df,
             source: sig.source.clone(),
-            determinations: sig.determinations.unwrap_or(1) as usize,
+            determinations: sig.determinations.or(results_n).unwrap_or(1) as usize,
             terms,
         });
     }

@@ -30,15 +30,21 @@ macro_rules! case {
 
 /// The reference cases shipped in the binary, as (file name, text).
 pub const EMBEDDED: &[(&str, &str)] = &[
+    case!("aliased-chain-unresolved.yaml"),
     case!("anova-replicated-2-2.yaml"),
     case!("bhh-pilot-plant.yaml"),
     case!("catalogue-5-factors-v.yaml"),
     case!("catalogue-7-factors-iv.yaml"),
+    case!("categorical-factor-and-nominal-runs.yaml"),
     case!("curvature-centre-points.yaml"),
+    case!("determinations-run-means.yaml"),
     case!("drift-additive.yaml"),
+    case!("drift-error-about-the-line.yaml"),
     case!("drift-relative.yaml"),
     case!("dummies-pb12.yaml"),
+    case!("excluded-run-least-squares.yaml"),
     case!("fraction-2-3-1.yaml"),
+    case!("interaction-verdict.yaml"),
     case!("lenth-dong-bhh-table-5-11.yaml"),
     case!("plackett-burman-12.yaml"),
     case!("precision-negligible-criteria.yaml"),

@@ -1,0 +1,236 @@
+//! One model per response, through the binary: the guards and conventions of the fit that
+//! the reference cases of `plateau verify` (verification/cases/) do not already pin down.
+//! Numbers are checked by hand from the printed data (each test says how).
+
+mod common;
+
+use std::path::PathBuf;
+
+use common::{json_of, plateau};
+
+/// A 2² study of one assay response with `extra` YAML appended and the four runs' values.
+fn study(dir: &tempfile::TempDir, body: &str) -> PathBuf {
+    let path = dir.path().join("study.yaml");
+    std::fs::write(&path, body).unwrap();
+    path
+}
+
+const HEAD: &str = "schema: 1
+study:
+  id: OM-1
+  title: One-model checks
+  method: TM-1
+  analyst: A. Tester
+  date: 2026-11-18
+";
+
+fn two_factor(design: &str, responses: &str, acceptance: &str, runs: &str) -> String {
+    format!(
+        "{HEAD}factors:
+  - {{ id: temp, name: Column temperature, unit: °C, nominal: 35, delta: 2 }}
+  - {{ id: ph, name: Buffer pH, nominal: 3.0, delta: 0.1 }}
+design:
+{design}
+responses:
+{responses}
+{acceptance}
+results:
+  runs:
+{runs}
+"
+    )
+}
+
+#[test]
+fn a_zero_reference_leaves_percent_effects_undefined_instead_of_failing() {
+    // Two-level runs average 0 (1.0 − 1.5 + 0.5 + 0.0 = 0): the model intercept is 0.
+    let dir = tempfile::tempdir().unwrap();
+    let path = study(
+        &dir,
+        &two_factor(
+            "  kind: full-factorial",
+            "  - { id: assay, name: Assay, percent-of: mean }",
+            "acceptance:\n  - { response: assay, effect-limit: 2.0 }",
+            "    - {run: 1, assay: 1.0}\n    - {run: 2, assay: -1.5}\n    - {run: 3, assay: 0.5}\n    - {run: 4, assay: 0.0}",
+        ),
+    );
+    let doc = json_of(&plateau(&["analyze", "--json"]).arg_path(&path).ok().stdout);
+    let r = &doc["responses"][0];
+    assert!(r["effects"][0]["percent"].is_null());
+    assert_eq!(r["verdict"]["outcome"], "not-judged");
+    assert!(r["verdict"]["robust"].is_null());
+    let kinds: Vec<&str> = r["notes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|n| n["kind"].as_str())
+        .collect();
+    assert!(kinds.contains(&"percent-undefined"), "{kinds:?}");
+    assert!(kinds.contains(&"percent-limit-not-applicable"), "{kinds:?}");
+}
+
+#[test]
+fn a_response_without_rules_never_blocks_another() {
+    // `blank` averages 0 and has no rule; `assay` is judged as usual.
+    let dir = tempfile::tempdir().unwrap();
+    let path = study(
+        &dir,
+        &two_factor(
+            "  kind: full-factorial",
+            "  - { id: assay, name: Assay, percent-of: mean }\n  - { id: blank, name: Blank signal, percent-of: mean }",
+            "acceptance:\n  - { response: assay, effect-limit: 2.0 }",
+            "    - {run: 1, assay: 99.0, blank: 1.0}\n    - {run: 2, assay: 99.4, blank: -1.0}\n    - {run: 3, assay: 99.2, blank: -1.0}\n    - {run: 4, assay: 99.6, blank: 1.0}",
+        ),
+    );
+    let doc = json_of(&plateau(&["analyze", "--json"]).arg_path(&path).ok().stdout);
+    assert_eq!(doc["responses"][0]["verdict"]["outcome"], "robust");
+    assert_eq!(doc["responses"][1]["verdict"]["outcome"], "not-judged");
+}
+
+#[test]
+fn a_negative_reference_keeps_the_sign_of_each_effect() {
+    // Runs −10.0, −9.0, −10.0, −9.0: E(temp) = +1.0, intercept −9.5, %E = 100·1/9.5 > 0.
+    let dir = tempfile::tempdir().unwrap();
+    let path = study(
+        &dir,
+        &two_factor(
+            "  kind: full-factorial",
+            "  - { id: shift, name: Retention shift, unit: s, percent-of: mean }",
+            "",
+            "    - {run: 1, shift: -10.0}\n    - {run: 2, shift: -9.0}\n    - {run: 3, shift: -10.0}\n    - {run: 4, shift: -9.0}",
+        ),
+    );
+    let doc = json_of(&plateau(&["analyze", "--json"]).arg_path(&path).ok().stdout);
+    let temp = &doc["responses"][0]["effects"][0];
+    assert_eq!(temp["label"], "temp");
+    let percent = temp["percent"].as_f64().unwrap();
+    assert!((percent - 100.0 / 9.5).abs() < 1e-9, "{percent}");
+}
+
+#[test]
+fn lenth_refuses_fewer_than_seven_contrasts() {
+    // A 2² has three contrasts; Lenth (1989) starts at m = 7 (the README's methods table).
+    let dir = tempfile::tempdir().unwrap();
+    let path = study(
+        &dir,
+        &two_factor(
+            "  kind: full-factorial",
+            "  - { id: assay, name: Assay, percent-of: mean }",
+            "acceptance:\n  - { response: assay, significance: { method: lenth } }",
+            "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 99.4}\n    - {run: 3, assay: 99.2}\n    - {run: 4, assay: 99.6}",
+        ),
+    );
+    let run = plateau(&["analyze", "--json"]).arg_path(&path).code(1);
+    assert!(
+        run.stderr.contains("acceptance[0].significance"),
+        "{}",
+        run.stderr
+    );
+    assert!(
+        run.stderr.contains("got 3, need at least 7"),
+        "{}",
+        run.stderr
+    );
+}
+
+#[test]
+fn a_precision_rule_with_less_than_one_degree_of_freedom_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = study(
+        &dir,
+        &two_factor(
+            "  kind: full-factorial",
+            "  - { id: assay, name: Assay, percent-of: mean }",
+            "acceptance:\n  - { response: assay, significance: { method: precision, s: 0.3, df: 0.5, source: validation report } }",
+            "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 99.4}\n    - {run: 3, assay: 99.2}\n    - {run: 4, assay: 99.6}",
+        ),
+    );
+    let run = plateau(&["check"]).arg_path(&path).code(1);
+    assert!(run.stderr.contains("significance.df"), "{}", run.stderr);
+    assert!(run.stderr.contains("expected at least 1"), "{}", run.stderr);
+}
+
+#[test]
+fn a_precision_rule_takes_the_results_determinations_and_refuses_another_number() {
+    let runs = "    - {run: 1, assay: [99.0, 99.1]}\n    - {run: 2, assay: [99.4, 99.3]}\n    - {run: 3, assay: [99.2, 99.2]}\n    - {run: 4, assay: [99.6, 99.5]}";
+    let with = |n: &str| {
+        two_factor(
+            "  kind: full-factorial",
+            "  - { id: assay, name: Assay, percent-of: mean }",
+            &format!("acceptance:\n  - {{ response: assay, significance: {{ method: precision, s: 0.4, df: 12, source: validation report{n} }} }}"),
+            runs,
+        )
+        .replace("results:\n", "results:\n  determinations: 2\n")
+    };
+    let dir = tempfile::tempdir().unwrap();
+    let path = study(&dir, &with(""));
+    let doc = json_of(&plateau(&["analyze", "--json"]).arg_path(&path).ok().stdout);
+    // SE(E) = 2s/√(N·n) = 2·0.4/√(4·2) (Vander Heyden et al. 2001 §6.2.2.1), n from results.
+    let se = doc["responses"][0]["criteria"][0]["se"].as_f64().unwrap();
+    assert!((se - 0.8 / 8f64.sqrt()).abs() < 1e-12, "{se}");
+    let path = study(&dir, &with(", determinations: 3"));
+    let run = plateau(&["check"]).arg_path(&path).code(1);
+    assert!(
+        run.stderr.contains("significance.determinations"),
+        "{}",
+        run.stderr
+    );
+    assert!(
+        run.stderr.contains("`results.determinations` is 2"),
+        "{}",
+        run.stderr
+    );
+}
+
+#[test]
+fn an_uncorrected_drift_is_flagged() {
+    // Nominal runs 100.0, 100.5, 101.0, 101.6, 102.0 at orders 1, 4, 7, 10, 13 rise by about
+    // 0.17 per run (p < 0.001 on 3 df); no correction is declared.
+    let dir = tempfile::tempdir().unwrap();
+    let path = study(
+        &dir,
+        &two_factor(
+            "  kind: full-factorial\n  replicates: 2\n  center-points: 5\n  nominal-runs: { every: 2 }",
+            "  - { id: assay, name: Assay, percent-of: nominal }",
+            "",
+            "    - {run: 1, assay: 100.1}\n    - {run: 2, assay: 100.3}\n    - {run: 3, assay: 100.6}\n    - {run: 4, assay: 100.8}\n    - {run: 5, assay: 101.0}\n    - {run: 6, assay: 101.1}\n    - {run: 7, assay: 101.3}\n    - {run: 8, assay: 101.5}\n    - {run: 9, assay: 100.0}\n    - {run: 10, assay: 100.5}\n    - {run: 11, assay: 101.0}\n    - {run: 12, assay: 101.6}\n    - {run: 13, assay: 102.0}",
+        ),
+    );
+    let doc = json_of(&plateau(&["analyze", "--json"]).arg_path(&path).ok().stdout);
+    let r = &doc["responses"][0];
+    assert_eq!(r["drift"]["uncorrected_significant"], true);
+    assert!(
+        r["notes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|n| n["kind"] == "drift-not-corrected"),
+        "{}",
+        r["notes"]
+    );
+}
+
+#[test]
+fn an_operating_range_never_extends_beyond_the_tested_levels() {
+    // temp tested 33 to 43 around a nominal of 35 (asymmetric): E(temp) = 2.0 against an
+    // absolute limit of 1.5 gives a width (1.5/2.0)·10 = 7.5 about 35, i.e. 31.25 to 38.75,
+    // which is cut back to 33 at the low end.
+    let dir = tempfile::tempdir().unwrap();
+    let body = two_factor(
+        "  kind: full-factorial",
+        "  - { id: assay, name: Assay, percent-of: mean }",
+        "acceptance:\n  - { response: assay, effect-limit: 1.5, unit: absolute, basis: lab rule }",
+        "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 101.0}\n    - {run: 3, assay: 99.0}\n    - {run: 4, assay: 101.0}",
+    )
+    .replace(
+        "nominal: 35, delta: 2 }",
+        "nominal: 35, low: 33, high: 43 }",
+    );
+    let path = study(&dir, &body);
+    let doc = json_of(&plateau(&["analyze", "--json"]).arg_path(&path).ok().stdout);
+    let range = &doc["responses"][0]["control_ranges"][0];
+    assert_eq!(range["factor"], "temp");
+    assert_eq!(range["clipped"], true);
+    assert_eq!(range["low"].as_f64(), Some(33.0));
+    assert!((range["high"].as_f64().unwrap() - 38.75).abs() < 1e-12);
+}
