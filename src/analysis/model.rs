@@ -194,7 +194,7 @@ impl Fit {
     }
 
     /// Type III sum of squares of one kept term, b_j²/[(XᵀX)⁻¹]_jj: the rise of the residual
-    /// sum of squares when the term is dropped (Searle, Linear Models, 1971, §5.5, the
+    /// sum of squares when the term is dropped (Searle, Linear Models, 1971, §5.5 from memory, the
     /// one-degree-of-freedom case; equal to N·E²/4 in an orthogonal design).
     pub fn term_ss(&self, term: TermMask) -> Option<f64> {
         let j = self.terms.iter().position(|t| *t == term)?;

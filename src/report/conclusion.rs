@@ -1,10 +1,12 @@
-//! The conclusion paragraph, written from the verdicts as plain sentences.
+//! The conclusion, written from the typed verdicts: what was tested, one short block per
+//! response, one overall verdict, the proposals that follow, and what the study cannot show.
 //!
-//! It states what was tested (factors and ranges), under which declared criterion, which effects
-//! were relevant, and what the study cannot show; it never says "robust" without the ranges and
-//! the criterion (Vander Heyden et al., J. Pharm. Biomed. Anal. 24 (2001) 723–753, §7).
+//! It never says "robust" without the ranges and the criterion (Vander Heyden et al., J. Pharm.
+//! Biomed. Anal. 24 (2001) 723–753, §7), never claims what plateau cannot know (for instance
+//! when the criteria were fixed), and never calls a factor robust while proposing to narrow
+//! its range.
 
-use crate::analysis::{Analysis, Effect, Note, ResponseAnalysis};
+use crate::analysis::{Analysis, Effect, FollowUp, Note, Outcome, ResponseAnalysis};
 use crate::study::{LimitUnit, Study};
 
 use super::format::{fixed, setting};
@@ -151,17 +153,60 @@ fn factor_unit(study: &Study, id: &str) -> String {
         .unwrap_or_default()
 }
 
-/// The sentences of the conclusion, in reading order.
+/// The conclusion: what was tested, one block per response, one overall verdict, the
+/// proposals that follow, and what the study cannot show.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Conclusion {
+    /// The factors and ranges tested.
+    pub scope: Vec<String>,
+    /// One short block per response.
+    pub responses: Vec<ResponseBlock>,
+    /// The overall verdict.
+    pub overall: Vec<String>,
+    /// Proposed operating ranges, precautions and system-suitability limits (proposals for
+    /// the method owner, not decisions).
+    pub proposals: Vec<String>,
+    /// Informational ranges from statistical significance alone.
+    pub informational: Vec<String>,
+    /// What the study cannot show.
+    pub limitations: Vec<String>,
+}
+
+/// The conclusion about one response.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct ResponseBlock {
+    /// Response name.
+    pub name: String,
+    /// The outcome in a few words.
+    pub outcome: String,
+    /// What was judged, against what, and what was found.
+    pub sentences: Vec<String>,
+}
+
+/// The sentences of the conclusion in reading order (for the terminal and for `diff`).
 pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
-    let mut out = Vec::new();
-    let ranges: Vec<String> = study
-        .factors
-        .iter()
-        .map(|f| format!("{} {}", f.name, range_text(study, &f.id)))
-        .collect();
-    let two_level = analysis.design.two_level_runs;
+    let c = build(study, analysis);
+    let mut out = c.scope;
+    for b in c.responses {
+        out.push(format!("{} ({}):", b.name, b.outcome));
+        out.extend(b.sentences);
+    }
+    out.extend(c.overall);
+    out.extend(c.proposals.into_iter().map(|p| format!("Proposed: {p}")));
+    out.extend(
+        c.informational
+            .into_iter()
+            .map(|p| format!("For information: {p}")),
+    );
+    out.extend(c.limitations);
+    out
+}
+
+/// The conclusion, built from the typed verdicts only.
+pub fn build(study: &Study, analysis: &Analysis) -> Conclusion {
+    let mut scope = Vec::new();
     if study.source == crate::study::model::SourceKind::Development {
-        out.push(format!(
+        scope.push(format!(
             "The data come from method development{}, as ICH Q14 allows for showing robustness.",
             study
                 .info
@@ -171,274 +216,440 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
                 .unwrap_or_default()
         ));
     }
-    out.push(format!(
-        "{} factors were varied in {} two-level runs{}: {}.",
+    let ranges: Vec<String> = study
+        .factors
+        .iter()
+        .map(|f| format!("{} {}", f.name, range_text(study, &f.id)))
+        .collect();
+    scope.push(format!(
+        "{} {} varied in {} two-level runs{}: {}.",
         count_word(study.factors.len()),
-        two_level,
-        if analysis.design.center_points > 0 {
-            format!(" and {} nominal runs", analysis.design.center_points)
+        if study.factors.len() == 1 {
+            "factor was"
         } else {
-            String::new()
+            "factors were"
+        },
+        analysis.design.two_level_runs,
+        match analysis.design.center_points {
+            0 => String::new(),
+            1 => " and one nominal run".to_string(),
+            n => format!(" and {n} nominal runs"),
         },
         ranges.join("; ")
     ));
-    for response in &analysis.responses {
-        let mains: Vec<&Effect> = response
-            .effects
-            .iter()
-            .filter(|e| e.order == 1 && !e.dummy)
-            .collect();
-        let criterion = limit_text(response);
-        let statistical: Vec<&crate::analysis::judge::CriterionSummary> = response
-            .criteria
-            .iter()
-            .filter(|c| c.method != "effect-limit")
-            .collect();
-        if criterion.is_none() && statistical.is_empty() && response.worst_case.is_none() {
-            out.push(format!(
-                "{}: no acceptance rule was declared, so its effects are reported without a verdict.",
-                response.name
-            ));
-            continue;
+    let mut proposals = Vec::new();
+    let mut informational = Vec::new();
+    let responses = analysis
+        .responses
+        .iter()
+        .map(|r| response_block(study, r, &mut proposals, &mut informational))
+        .collect();
+    Conclusion {
+        scope,
+        responses,
+        overall: overall(study, analysis),
+        proposals,
+        informational,
+        limitations: limitations(analysis),
+    }
+}
+
+fn outcome_words(r: &ResponseAnalysis) -> &'static str {
+    match r.verdict.outcome {
+        Outcome::Robust => "within the limit",
+        Outcome::NotRobust => "beyond the limit",
+        Outcome::Unresolved => "unresolved alias chain",
+        Outcome::StatisticalOnly => "statistical criterion only",
+        Outcome::NotJudged => "not judged",
+    }
+}
+
+/// A term's name for prose: a factor's name, or the factors of an interaction joined by ×.
+fn term_name(study: &Study, e: &Effect) -> String {
+    if e.estimable {
+        let names: Vec<String> = e.factors.iter().map(|id| factor_name(study, id)).collect();
+        if names.len() == 1 {
+            names.concat()
+        } else {
+            format!("the interaction {}", names.join(" × "))
         }
-        if let Some(criterion) = &criterion {
-            let relevant: Vec<&Effect> = mains
+    } else {
+        format!("the column {}", e.label)
+    }
+}
+
+fn response_block(
+    study: &Study,
+    r: &ResponseAnalysis,
+    proposals: &mut Vec<String>,
+    informational: &mut Vec<String>,
+) -> ResponseBlock {
+    let mut out = Vec::new();
+    let criterion = limit_text(r);
+    let statistical: Vec<&crate::analysis::judge::CriterionSummary> = r
+        .criteria
+        .iter()
+        .filter(|c| c.method != "effect-limit")
+        .collect();
+    let real: Vec<&Effect> = r.effects.iter().filter(|e| !e.dummy).collect();
+    match (&criterion, statistical.first()) {
+        (Some(c), Some(s)) => out.push(format!(
+            "Judged against {c}, and statistically by {}.",
+            significance_text(r, s)
+        )),
+        (Some(c), None) => out.push(format!("Judged against {c}.")),
+        (None, Some(s)) => out.push(format!(
+            "No practical limit was declared; judged statistically by {}.",
+            significance_text(r, s)
+        )),
+        (None, None) if r.worst_case.is_none() => {
+            out.push(
+                "No acceptance rule was declared, so its effects are reported without a verdict."
+                    .into(),
+            );
+        }
+        (None, None) => {}
+    }
+    match r.verdict.outcome {
+        Outcome::Robust => {
+            let largest = real
                 .iter()
-                .copied()
-                .filter(|e| e.relevant == Some(true))
-                .collect();
-            if relevant.is_empty() {
-                let largest = mains
-                    .iter()
-                    .max_by(|a, b| a.effect.abs().total_cmp(&b.effect.abs()));
-                let mut s = format!(
-                    "{}: no main effect exceeded the acceptance criterion {criterion}",
-                    response.name
-                );
-                if let Some(e) = largest {
-                    s.push_str(&format!(
-                        "; the largest was that of {} with {}",
-                        factor_name(study, e.factors.first().map_or("", String::as_str)),
-                        effect_words(response, e)
-                    ));
-                }
-                s.push('.');
-                out.push(s);
-            } else {
-                for e in &relevant {
-                    let id = e.factors.first().map_or("", String::as_str);
-                    out.push(format!(
-                        "{}: {} had a relevant effect of {} when changed from {}, beyond the acceptance criterion {criterion}.",
-                        response.name,
-                        factor_name(study, id),
-                        effect_words(response, e),
-                        range_text(study, id)
-                    ));
-                }
-            }
-        }
-        if let Some(first) = statistical.first() {
-            let significant: Vec<String> = mains
-                .iter()
-                .filter(|e| e.significant == Some(true))
-                .map(|e| factor_name(study, e.factors.first().map_or("", String::as_str)))
-                .collect();
-            let verdict = if first.e_crit.is_none() {
-                "could not be judged".to_string()
-            } else if significant.is_empty() {
-                "showed no significant main effect".to_string()
-            } else {
-                format!(
-                    "showed significant main effects of {}",
-                    and_list(&significant)
-                )
-            };
-            out.push(format!(
-                "{}: judged by the {}, the study {verdict}.",
-                response.name,
-                significance_text(response, first)
-            ));
-        }
-        for e in response
-            .effects
-            .iter()
-            .filter(|e| e.order > 1 && e.relevant == Some(true))
-        {
-            out.push(format!(
-                "{}: the interaction column {} also exceeded the criterion with {}{}.",
-                response.name,
-                e.label,
-                effect_words(response, e),
-                if e.estimable {
-                    String::new()
-                } else {
-                    "; it is aliased, so its estimate belongs to the whole chain".to_string()
-                }
-            ));
-        }
-        if let Some(w) = &response.worst_case {
-            let unit = response
-                .unit
-                .as_deref()
-                .map(|u| format!(" {u}"))
-                .unwrap_or_default();
-            let settings: Vec<String> = w
-                .prediction
-                .factors
-                .iter()
-                .map(|f| {
-                    format!(
-                        "{} {}",
-                        f.label,
-                        match f.level {
-                            crate::analysis::decision::WorseLevel::High => "high",
-                            crate::analysis::decision::WorseLevel::Low => "low",
-                            crate::analysis::decision::WorseLevel::Either => "either level",
-                        }
-                    )
-                })
-                .collect();
-            let limit = match (w.min, w.max) {
-                (Some(m), _) => format!(" against the limit ≥ {}{unit}", setting(m)),
-                (None, Some(m)) => format!(" against the limit ≤ {}{unit}", setting(m)),
-                _ => String::new(),
-            };
-            let lower = w.prediction.direction == crate::analysis::decision::Direction::Lower;
-            out.push(format!(
-                "{}: the worst case within the studied domain, from the {}{}, is {}{unit}{limit}{}; proposed system-suitability limit: {} {}{unit}.",
-                response.name,
-                w.basis,
-                if settings.is_empty() { String::new() } else { format!(" ({})", settings.join(", ")) },
-                fixed(w.prediction.predicted, response.decimals),
-                match w.meets {
-                    Some(true) => ", which still meets it",
-                    Some(false) => ", which does not meet it: the factors above must be controlled more tightly",
-                    None => "",
-                },
-                if lower { "≥" } else { "≤" },
-                fixed(w.proposed_limit, response.decimals),
-            ));
-        }
-        let mut ranges = Vec::new();
-        for c in &response.control_ranges {
-            let name = factor_name(study, &c.factor);
-            let unit = factor_unit(study, &c.factor);
-            // Where both criteria give a range, the practical one decides the procedure.
-            let both = response
-                .control_ranges
-                .iter()
-                .any(|o| o.factor == c.factor && o.basis == "relevance");
-            if c.basis == "significance" && both {
-                continue;
-            }
-            match (precaution_text(study, c), c.low, c.high) {
-                (Some(text), _, _) => out.push(text),
-                (None, Some(lo), Some(hi)) => ranges.push(format!(
-                    "{name} {} to {}{unit} ({} criterion; tested {} to {}{unit})",
-                    setting(round_sig(lo, 4)),
-                    setting(round_sig(hi, 4)),
-                    if c.basis == "relevance" {
-                        "acceptance"
-                    } else {
-                        "statistical"
-                    },
-                    c.tested_low.map(setting).unwrap_or_default(),
-                    c.tested_high.map(setting).unwrap_or_default(),
-                )),
-                _ => {}
-            }
-        }
-        if !ranges.is_empty() {
-            out.push(format!(
-                "{}: proposed operating ranges that keep each effect below its criterion, assuming linear effects: {}.",
-                response.name,
-                ranges.join("; ")
-            ));
-        }
-        if let Some(d) = response.drift.as_ref().and_then(|d| d.check.as_ref())
-            && d.p.is_some_and(|p| p < 0.05)
-        {
-            out.push(format!(
-                "{}: the nominal runs drifted by {} per run (p = {}){}.",
-                response.name,
-                crate::report::format::signed(d.slope, response.decimals + 2),
-                fixed(d.p.unwrap_or(f64::NAN), 3),
-                if response
-                    .drift
-                    .as_ref()
-                    .is_some_and(|d| d.correction.is_some())
-                {
-                    "; the effects were computed on drift-corrected values"
-                } else {
-                    "; the effects were not corrected for it"
-                }
-            ));
-        }
-        if let Some(c) = &response.curvature
-            && c.p.is_some_and(|p| p < 0.05)
-        {
-            out.push(format!(
-                    "{}: the nominal runs differ significantly from the mean of the two-level runs (curvature {}, p = {}): the response is not linear between the levels.",
-                    response.name,
-                    crate::report::format::signed(c.difference, response.decimals + 1),
-                    fixed(c.p.unwrap_or(f64::NAN), 3)
+                .max_by(|a, b| a.effect.abs().total_cmp(&b.effect.abs()));
+            let mut s =
+                "No estimated effect, main effect or interaction, exceeded the limit".to_string();
+            if let Some(e) = largest {
+                s.push_str(&format!(
+                    "; the largest was that of {} with {}",
+                    term_name(study, e),
+                    effect_words(r, e)
                 ));
+            }
+            s.push('.');
+            out.push(s);
         }
-        if let Some(u) = &response.uncertainty {
+        Outcome::NotRobust => {
+            let beyond: Vec<String> = real
+                .iter()
+                .filter(|e| e.estimable && e.relevant == Some(true))
+                .map(|e| format!("{} with {}", term_name(study, e), effect_words(r, e)))
+                .collect();
+            out.push(format!("Beyond the limit: {}.", and_list(&beyond)));
+        }
+        Outcome::NotJudged => {
+            if r.notes
+                .iter()
+                .any(|n| matches!(n, Note::PercentLimitNotApplicable))
+            {
+                out.push("The percent limit cannot be applied because the reference is zero, so the response is not judged against it.".into());
+            }
+        }
+        Outcome::Unresolved | Outcome::StatisticalOnly => {}
+    }
+    for chain in &r.verdict.unresolved {
+        let e = real.iter().find(|e| e.label == chain.label);
+        out.push(format!(
+            "The column {} {} with {}; the design cannot tell which of its terms is responsible ({} are all candidates). {}",
+            chain.label,
+            if chain.relevant { "exceeded the limit" } else { "is significant" },
+            e.map(|e| effect_words(r, e)).unwrap_or_default(),
+            and_list(&chain.factors.iter().map(|id| factor_name(study, id)).collect::<Vec<_>>()),
+            follow_up_text(study, &chain.follow_up)
+        ));
+    }
+    if let Some(first) = statistical.first() {
+        let significant: Vec<String> = real
+            .iter()
+            .filter(|e| e.significant == Some(true))
+            .map(|e| term_name(study, e))
+            .collect();
+        if first.e_crit.is_none() {
+            out.push("The statistical criterion could not judge the effects.".into());
+        } else if significant.is_empty() {
+            out.push("No effect is statistically significant.".into());
+        } else if criterion.is_none() {
             out.push(format!(
-                "{}: the routine variation of {} contributes a combined standard uncertainty of {}{}.",
-                response.name,
-                and_list(&u.rows.iter().map(|r| factor_name(study, &r.factor)).collect::<Vec<_>>()),
-                fixed(u.combined, response.decimals + 1),
-                response.unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default()
+                "Statistically significant: {}.",
+                and_list(&significant)
+            ));
+        }
+        let not_relevant: Vec<String> = real
+            .iter()
+            .filter(|e| e.estimable && e.significant == Some(true) && e.relevant == Some(false))
+            .map(|e| term_name(study, e))
+            .collect();
+        if !not_relevant.is_empty() {
+            out.push(format!(
+                "{} {} statistically significant but within the practical limit: a real change too small to matter for this method.",
+                capitalise(&and_list(&not_relevant)),
+                if not_relevant.len() == 1 { "is" } else { "are" }
             ));
         }
     }
+    if let Some(w) = &r.worst_case {
+        let unit = unit_suffix(r);
+        let limit = match (w.min, w.max) {
+            (Some(m), _) => format!(" against the limit ≥ {}{unit}", setting(m)),
+            (None, Some(m)) => format!(" against the limit ≤ {}{unit}", setting(m)),
+            _ => String::new(),
+        };
+        let lower = w.prediction.direction == crate::analysis::decision::Direction::Lower;
+        out.push(format!(
+            "Worst case within the studied domain, from the {} effects{}: {}{unit}{limit}{}.",
+            w.basis,
+            if w.interactions.is_empty() {
+                String::new()
+            } else {
+                " and interactions".to_string()
+            },
+            fixed(w.prediction.predicted, r.decimals),
+            match w.meets {
+                Some(true) => ", which still meets it",
+                Some(false) => ", which does not meet it",
+                None => "",
+            },
+        ));
+        proposals.push(format!(
+            "system-suitability limit for {}: {} {}{unit} (the worst case rounded outward to the data's decimals)",
+            r.name,
+            if lower { "≥" } else { "≤" },
+            fixed(w.proposed_limit, r.decimals),
+        ));
+    }
+    for c in &r.control_ranges {
+        let both = r
+            .control_ranges
+            .iter()
+            .any(|o| o.factor == c.factor && o.basis == "relevance");
+        if c.basis == "significance" && both {
+            continue;
+        }
+        let text = match precaution_text(study, c) {
+            Some(t) => Some(t.trim_end_matches('.').to_string()),
+            None => range_proposal(study, r, c),
+        };
+        let Some(text) = text else { continue };
+        if c.basis == "relevance" {
+            proposals.push(text);
+        } else if r.verdict.outcome == Outcome::StatisticalOnly {
+            proposals.push(format!("{text} (from statistical significance alone)"));
+        } else {
+            informational.push(text);
+        }
+    }
+    if let Some(d) = r.drift.as_ref()
+        && let Some(check) = &d.check
+        && check
+            .p
+            .is_some_and(|p| p < crate::analysis::judge::DRIFT_ALPHA)
+    {
+        out.push(format!(
+            "The nominal runs drifted by {}{} per run of the run order (p {}){}.",
+            crate::report::format::signed(check.slope, r.decimals + 2),
+            unit_suffix(r),
+            p_relation(check.p.unwrap_or(f64::NAN)),
+            if d.correction.is_some() {
+                "; the effects were computed on drift-corrected values"
+            } else {
+                "; no correction was applied, so the drift inflates the error estimate"
+            }
+        ));
+    }
+    if let Some(c) = &r.curvature
+        && c.p.is_some_and(|p| p < 0.05)
+    {
+        out.push(format!(
+            "The nominal runs differ significantly from the model's prediction at the nominal setting (curvature {}{}, p {}): the response is not linear between the levels.",
+            crate::report::format::signed(c.difference, r.decimals + 1),
+            unit_suffix(r),
+            p_relation(c.p.unwrap_or(f64::NAN))
+        ));
+    }
+    if let Some(u) = &r.uncertainty {
+        out.push(format!(
+            "The routine variation of {} contributes a combined standard uncertainty of {}{}.",
+            and_list(
+                &u.rows
+                    .iter()
+                    .map(|row| factor_name(study, &row.factor))
+                    .collect::<Vec<_>>()
+            ),
+            fixed(u.combined, r.decimals + 1),
+            unit_suffix(r)
+        ));
+    }
+    ResponseBlock {
+        name: r.name.clone(),
+        outcome: outcome_words(r).to_string(),
+        sentences: out,
+    }
+}
+
+fn unit_suffix(r: &ResponseAnalysis) -> String {
+    r.unit
+        .as_deref()
+        .map(|u| format!(" {u}"))
+        .unwrap_or_default()
+}
+
+fn capitalise(text: &str) -> String {
+    let mut chars = text.chars();
+    match chars.next() {
+        Some(c) => c.to_uppercase().chain(chars).collect(),
+        None => String::new(),
+    }
+}
+
+/// `= 0.012` or `< 0.001`.
+fn p_relation(p: f64) -> String {
+    let t = p_text(p);
+    if t.starts_with('<') {
+        t
+    } else {
+        format!("= {t}")
+    }
+}
+
+/// The follow-up runs in words.
+pub fn follow_up_text(study: &Study, f: &FollowUp) -> String {
+    match f {
+        FollowUp::FullFoldOver { runs } => format!(
+            "Proposed follow-up: a full fold-over, {runs} runs repeating the two-level runs with every sign switched, analysed together with these runs."
+        ),
+        FollowUp::FoldOnFactor { factor, runs } => format!(
+            "Proposed follow-up: a fold-over on {}, {runs} runs repeating the two-level runs with the levels of {} switched, analysed together with these runs.",
+            factor_name(study, factor),
+            factor_name(study, factor)
+        ),
+    }
+}
+
+/// A proposed numeric range, rounded inward to one decimal more than the tested levels.
+fn range_proposal(
+    study: &Study,
+    r: &ResponseAnalysis,
+    c: &crate::analysis::judge::ControlRange,
+) -> Option<String> {
+    let (lo, hi) = (c.low?, c.high?);
+    let f = study.factors.iter().find(|f| f.id == c.factor)?;
+    let crate::study::Levels::Numeric { nominal, low, high } = f.levels else {
+        return None;
+    };
+    let d = crate::analysis::data_decimals(&[nominal, low, high]) + 1;
+    let scale = 10f64.powi(d as i32);
+    // Inward, so the proposal never allows more than the computed range.
+    let (lo_r, hi_r) = (
+        (lo * scale - 1e-9).ceil() / scale,
+        (hi * scale + 1e-9).floor() / scale,
+    );
+    let unit = factor_unit(study, &c.factor);
+    let why = if c.basis == "relevance" {
+        "keeps its effect within the acceptance limit"
+    } else {
+        "keeps its effect below the critical effect"
+    };
+    let interactions = if c.interactions.is_empty() {
+        String::new()
+    } else {
+        format!(
+            ", counting its interaction{} {}",
+            if c.interactions.len() == 1 { "" } else { "s" },
+            and_list(&c.interactions)
+        )
+    };
+    Some(format!(
+        "{} {} to {}{unit} for {} ({why}{interactions}, assuming a linear effect; tested {} to {}{unit}{})",
+        f.name,
+        fixed(lo_r, d),
+        fixed(hi_r, d),
+        r.name,
+        setting(low),
+        setting(high),
+        if c.clipped {
+            "; cut back to the tested range"
+        } else {
+            ""
+        }
+    ))
+}
+
+/// The overall verdict over the assay responses.
+fn overall(study: &Study, analysis: &Analysis) -> Vec<String> {
+    let mut out = Vec::new();
     let judged: Vec<&ResponseAnalysis> = analysis
         .responses
         .iter()
-        .filter(|r| r.verdict.robust.is_some() && r.role == "assay")
+        .filter(|r| r.role == "assay" && r.verdict.robust.is_some())
         .collect();
-    if !judged.is_empty() {
-        let robust_factors: Vec<String> = study
-            .factors
-            .iter()
-            .filter(|f| !analysis.non_robust_factors.contains(&f.id))
-            .map(|f| f.name.clone())
-            .collect();
-        let names: Vec<&str> = judged.iter().map(|r| r.name.as_str()).collect();
-        if analysis.non_robust_factors.is_empty() {
-            out.push(format!(
-                "Within the tested ranges and under the criteria declared before the data were seen, none of the factors had a relevant effect on {}; the method is robust for these ranges.",
-                and_list(&names.iter().map(|s| s.to_string()).collect::<Vec<_>>())
-            ));
-        } else {
-            let critical: Vec<String> = analysis
-                .non_robust_factors
+    if judged.is_empty() {
+        if analysis.responses.iter().any(|r| r.role == "assay") {
+            out.push("No practical acceptance limit was applied to an assay response, so this chapter makes no statement about the method's robustness.".into());
+        }
+        return out;
+    }
+    let names = and_list(&judged.iter().map(|r| r.name.clone()).collect::<Vec<_>>());
+    let suspects: Vec<String> = study
+        .factors
+        .iter()
+        .filter(|f| {
+            analysis
+                .unresolved
                 .iter()
-                .map(|id| factor_name(study, id))
-                .collect();
+                .any(|u| u.chain.factors.contains(&f.id))
+        })
+        .map(|f| f.id.clone())
+        .collect();
+    let control: Vec<String> = analysis
+        .non_robust_factors
+        .iter()
+        .map(|id| factor_name(study, id))
+        .collect();
+    if control.is_empty() && suspects.is_empty() {
+        out.push(format!(
+            "Within the tested ranges and under the stated criteria, no factor had a relevant effect on {names}: the method is robust for these ranges."
+        ));
+        return out;
+    }
+    if !control.is_empty() {
+        out.push(format!(
+            "The method is not robust over the tested ranges: {} {} {names} beyond the limit, so {} {} control within the proposed {} below.",
+            and_list(&control),
+            if control.len() == 1 { "changes" } else { "change" },
+            if control.len() == 1 { "it" } else { "they" },
+            if control.len() == 1 { "needs" } else { "need" },
+            if control.len() == 1 { "range or precaution" } else { "ranges or precautions" },
+        ));
+    }
+    if !suspects.is_empty() {
+        let only_suspects: Vec<String> = suspects
+            .iter()
+            .filter(|id| !analysis.non_robust_factors.contains(id))
+            .map(|id| factor_name(study, id))
+            .collect();
+        if !only_suspects.is_empty() {
             out.push(format!(
-                "The method is not robust to {} over the tested range: {} must be controlled more tightly than it was varied here.",
-                and_list(&critical),
-                if critical.len() == 1 { "this parameter" } else { "these parameters" }
+                "Whether the method is robust to {} cannot be decided from this design: a relevant alias chain involves {}; the follow-up runs above would decide it.",
+                and_list(&only_suspects),
+                if only_suspects.len() == 1 { "it" } else { "them" }
             ));
-            if !robust_factors.is_empty() {
-                out.push(format!(
-                    "{} had no relevant effect on {} within the tested ranges.",
-                    and_list(&robust_factors),
-                    and_list(&names.iter().map(|s| s.to_string()).collect::<Vec<_>>())
-                ));
-            }
         }
     }
-    out.extend(limitations(study, analysis));
+    let clear: Vec<String> = study
+        .factors
+        .iter()
+        .filter(|f| !analysis.non_robust_factors.contains(&f.id) && !suspects.contains(&f.id))
+        .map(|f| f.name.clone())
+        .collect();
+    if !clear.is_empty() {
+        out.push(format!(
+            "{} had no relevant effect on {names} within the tested ranges.",
+            and_list(&clear)
+        ));
+    }
     out
 }
 
 /// What the design could not see: aliasing, and the smallest effect it could detect.
-fn limitations(study: &Study, analysis: &Analysis) -> Vec<String> {
-    let _ = study;
+fn limitations(analysis: &Analysis) -> Vec<String> {
     let mut out = Vec::new();
     let two_level = analysis.design.two_level_runs;
     match (analysis.design.kind.as_str(), analysis.design.resolution) {
@@ -446,7 +657,7 @@ fn limitations(study: &Study, analysis: &Analysis) -> Vec<String> {
             "A Plackett–Burman design estimates main effects only: two-factor interactions are partially aliased with them and cannot be seen.".to_string(),
         ),
         (_, Some(3)) => out.push(
-            "The design is of resolution III: main effects are aliased with two-factor interactions, which it cannot see; the effects assume those interactions negligible.".to_string(),
+            "The design is of resolution III: main effects are aliased with two-factor interactions, which it cannot separate from them.".to_string(),
         ),
         (_, Some(4)) => out.push(
             "The design is of resolution IV: main effects are free of two-factor interactions, but two-factor interactions are aliased with each other.".to_string(),
@@ -459,16 +670,12 @@ fn limitations(study: &Study, analysis: &Analysis) -> Vec<String> {
         .filter_map(|r| {
             let c = r.criteria.iter().find(|c| c.method != "effect-limit")?;
             let e = c.e_crit?;
-            Some(
-                format!(
-                    "{} {}",
-                    fixed(e, r.decimals + 1),
-                    r.unit.clone().unwrap_or_default()
-                )
-                .trim()
-                .to_string()
-                    + &format!(" for {}", r.name),
-            )
+            Some(format!(
+                "{}{} for {}",
+                fixed(e, r.decimals + 1),
+                unit_suffix(r),
+                r.name
+            ))
         })
         .collect();
     let mut s = format!(
@@ -476,7 +683,7 @@ fn limitations(study: &Study, analysis: &Analysis) -> Vec<String> {
     );
     if !detectable.is_empty() {
         s.push_str(&format!(
-            "; smaller effects than the critical effects ({}) could not be told apart from the measurement scatter",
+            "; effects smaller than the critical effects ({}) could not be told apart from the run-to-run scatter",
             detectable.join("; ")
         ));
     }
@@ -504,15 +711,6 @@ pub fn and_list(items: &[String]) -> String {
         [one] => one.clone(),
         [init @ .., last] => format!("{} and {last}", init.join(", ")),
     }
-}
-
-/// `x` rounded to `digits` significant digits.
-fn round_sig(x: f64, digits: i32) -> f64 {
-    if x == 0.0 || !x.is_finite() {
-        return x;
-    }
-    let scale = 10f64.powi(digits - 1 - x.abs().log10().floor() as i32);
-    (x * scale).round() / scale
 }
 
 /// A typed analysis note in words, for the judging section.

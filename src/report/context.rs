@@ -48,8 +48,8 @@ pub struct Context {
     pub runs: Vec<RunRow>,
     /// One block per response.
     pub responses: Vec<ResponseText>,
-    /// The conclusion sentences.
-    pub conclusion: Vec<String>,
+    /// The conclusion.
+    pub conclusion: conclusion::Conclusion,
     /// Analyst notes, one entry per paragraph.
     pub notes: Vec<String>,
     /// Provenance.
@@ -506,7 +506,7 @@ pub fn build(evaluated: &Evaluated, typst_version: Option<&str>, figures: &[Figu
         run_columns,
         runs,
         responses,
-        conclusion: conclusion::sentences(study, analysis),
+        conclusion: conclusion::build(study, analysis),
         notes: study.notes.as_deref().map(paragraphs).unwrap_or_default(),
         provenance: provenance_text(analysis, typst_version),
     }
