@@ -35,9 +35,10 @@ fn pilot_plant_effects_of_box_hunter_hunter_come_out_of_a_yaml_study() {
         let got = e["effect"].as_f64().unwrap();
         assert!((got - value).abs() < 1e-12, "{label}: {got} vs {value}");
     }
-    // Percent of the design mean 64.25 (the mean of the eight printed yields).
+    // Percent of the model intercept 64.25 (the mean of the eight printed yields: the design
+    // is orthogonal).
     assert_eq!(doc["responses"][0]["reference"].as_f64(), Some(64.25));
-    assert_eq!(doc["responses"][0]["reference_kind"], "design-mean");
+    assert_eq!(doc["responses"][0]["reference_kind"], "model-intercept");
 }
 
 #[test]
@@ -240,11 +241,11 @@ fn the_example_report_pdf_shows_effects_verdicts_and_the_conclusion() {
         "{flat}"
     );
     assert!(
-        flat.contains("Mobile-phase pH had a relevant effect of −2.30 % label claim (−2.30 %) when changed from 2.9 to 3.1"),
+        flat.contains("Mobile-phase pH exceeded the limit with −2.30 % label claim (−2.30 %)."),
         "{flat}"
     );
     assert!(
-        flat.contains("The method is not robust to Mobile-phase pH over the tested range"),
+        flat.contains("The method is not robust over the tested ranges: Mobile-phase pH changes Assay beyond the limit"),
         "{flat}"
     );
     assert!(

@@ -140,14 +140,14 @@ fn assert_rerun_changes(d: &StudyDiff) {
     assert!(
         c.removed
             .iter()
-            .any(|s| s.contains("Mobile-phase pH had a relevant effect of \u{2212}2.30")),
+            .any(|s| s.contains("Assay: Mobile-phase pH exceeded the limit with \u{2212}2.30")),
         "{:?}",
         c.removed
     );
     assert!(
-        c.added.iter().any(|s| s
-            .starts_with("Assay: no main effect exceeded the acceptance criterion")
-            && s.contains("Mobile-phase pH with \u{2212}1.80")),
+        c.added.iter().any(|s| s.starts_with(
+            "Assay: No estimated effect, main effect or interaction, exceeded the limit"
+        ) && s.contains("Mobile-phase pH with \u{2212}1.80")),
         "{:?}",
         c.added
     );
@@ -175,7 +175,7 @@ fn a_rerun_lists_the_changed_effect_the_flipped_verdict_and_the_changed_sentence
     assert!(text.contains("\u{2212}1.8 (\u{2212}1.80361 %)"), "{text}");
     assert!(text.contains("verdicts that flipped"), "{text}");
     assert!(
-        text.contains("    - Assay: Mobile-phase pH had a relevant effect"),
+        text.contains("    - Assay: Mobile-phase pH exceeded the limit"),
         "{text}"
     );
     assert!(!text.contains("no changes"), "{text}");

@@ -188,8 +188,7 @@ pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
     let c = build(study, analysis);
     let mut out = c.scope;
     for b in c.responses {
-        out.push(format!("{} ({}):", b.name, b.outcome));
-        out.extend(b.sentences);
+        out.extend(b.sentences.into_iter().map(|s| format!("{}: {s}", b.name)));
     }
     out.extend(c.overall);
     out.extend(c.proposals.into_iter().map(|p| format!("Proposed: {p}")));
@@ -328,12 +327,16 @@ fn response_block(
             out.push(s);
         }
         Outcome::NotRobust => {
-            let beyond: Vec<String> = real
+            for e in real
                 .iter()
                 .filter(|e| e.estimable && e.relevant == Some(true))
-                .map(|e| format!("{} with {}", term_name(study, e), effect_words(r, e)))
-                .collect();
-            out.push(format!("Beyond the limit: {}.", and_list(&beyond)));
+            {
+                out.push(format!(
+                    "{} exceeded the limit with {}.",
+                    capitalise(&term_name(study, e)),
+                    effect_words(r, e)
+                ));
+            }
         }
         Outcome::NotJudged => {
             if r.notes
