@@ -42,6 +42,19 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Before the study: power to detect each declared limit and the minimum detectable effect
+    /// of the planned design and of the other designs for the same factors.
+    #[command(after_help = EXIT_CODES)]
+    Power {
+        /// The study file (results are not needed).
+        study: PathBuf,
+        /// Print the answer as JSON.
+        #[arg(long)]
+        json: bool,
+        /// The power asked of the design.
+        #[arg(long, value_name = "P", default_value_t = plateau::analysis::power::DEFAULT_TARGET)]
+        target: f64,
+    },
     /// Write the report folder: PDF, Typst source, tables (CSV) and analysis.json.
     #[command(after_help = EXIT_CODES)]
     Report {
@@ -263,6 +276,15 @@ fn run(command: Command) -> Result<(), Failure> {
                 design.nominal_count(),
                 design.contrasts.len()
             );
+            if let Ok(p) = plateau::analysis::power::analyse(
+                &s,
+                &design,
+                plateau::analysis::power::DEFAULT_TARGET,
+            ) {
+                for w in plateau::report::power::warnings(&p) {
+                    eprintln!("warning: {w}");
+                }
+            }
             match results {
                 Some(evaluated) => println!(
                     "ok  results: {} runs × {} responses",
@@ -360,6 +382,23 @@ fn run(command: Command) -> Result<(), Failure> {
                 file.display(),
                 file.display()
             );
+            Ok(())
+        }
+        Command::Power {
+            study,
+            json,
+            target,
+        } => {
+            let (s, design) = pipeline::plan(&study)?;
+            let p = plateau::analysis::power::analyse(&s, &design, target)
+                .map_err(|e| Failure::Usage(format!("--target: {e}")))?;
+            if json {
+                let text =
+                    serde_json::to_string_pretty(&p).map_err(|e| Failure::Other(e.to_string()))?;
+                println!("{text}");
+            } else {
+                print!("{}", plateau::report::power::text(&p));
+            }
             Ok(())
         }
         Command::Analyze { study, json } => {

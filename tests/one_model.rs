@@ -234,3 +234,46 @@ fn an_operating_range_never_extends_beyond_the_tested_levels() {
     assert_eq!(range["low"].as_f64(), Some(33.0));
     assert!((range["high"].as_f64().unwrap() - 38.75).abs() < 1e-12);
 }
+
+#[test]
+fn power_of_the_planned_design_matches_the_noncentral_t() {
+    // hplc-assay plans 8 two-level runs with s = 0.7 (11 df): SE(E) = 2·0.7/√8, and the
+    // power to detect 2.0 % of a level of 100 is 0.9562185536845129 by
+    // scipy.stats.nct.sf(t_c, 11, 2/SE) + nct.cdf(−t_c, 11, 2/SE), t_c = t.ppf(0.975, 11)
+    // (scipy 1.17.1; Lenth, Am. Stat. 55 (2001) 187–193 for the test).
+    let run = plateau(&["power", "--json"])
+        .arg_path(&common::example("hplc-assay/study.yaml"))
+        .ok();
+    let doc = json_of(&run.stdout);
+    let assay = &doc["responses"][0];
+    assert!((assay["se"].as_f64().unwrap() - 0.4949747468305832).abs() < 1e-12);
+    assert!((assay["power"].as_f64().unwrap() - 0.9562185536845129).abs() < 1e-9);
+    assert_eq!(doc["responses"][1]["gaps"][0], "no-limit");
+    assert!(
+        assay["candidates"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|c| c["planned"] == true && c["runs"] == 8)
+    );
+}
+
+#[test]
+fn check_warns_when_the_design_cannot_detect_the_limit() {
+    // 2² with s = 2 (known): SE(E) = 2 and a limit of 1.0 is detected with about 7 % power.
+    let dir = tempfile::tempdir().unwrap();
+    let body = two_factor(
+        "  kind: full-factorial",
+        "  - { id: assay, name: Assay, unit: \"%\", percent-of: mean, planning: { sd: 2.0 } }",
+        "acceptance:\n  - { response: assay, effect-limit: 1.0, unit: absolute, basis: lab rule }",
+        "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 99.4}\n    - {run: 3, assay: 99.2}\n    - {run: 4, assay: 99.6}",
+    );
+    let path = study(&dir, &body);
+    let run = plateau(&["check"]).arg_path(&path).ok();
+    assert!(
+        run.stderr.contains("warning: response `assay`"),
+        "{}",
+        run.stderr
+    );
+    assert!(run.stderr.contains("plateau power"), "{}", run.stderr);
+}

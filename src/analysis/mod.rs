@@ -11,6 +11,7 @@ pub mod drift;
 pub mod effects;
 pub mod judge;
 pub mod model;
+pub mod power;
 pub mod quantile;
 pub mod text;
 pub mod verdict;

@@ -11,6 +11,7 @@ pub mod escape;
 pub mod figures;
 pub mod format;
 pub mod judging;
+pub mod power;
 pub mod render;
 pub mod runsheet;
 pub mod tables;

@@ -888,6 +888,16 @@ fn responses(
             percent_of,
             decimals: r.decimals,
             role: r.role.unwrap_or(model::Role::Assay),
+            planning: r
+                .planning
+                .as_ref()
+                .map(|p| crate::study::Planning {
+                    sd: p.sd.unwrap_or(f64::NAN),
+                    df: p.df,
+                    level: p.level,
+                    source: p.source.clone(),
+                })
+                .filter(|p| p.sd.is_finite() || p.level.is_some()),
         });
     }
     out

@@ -215,6 +215,8 @@ pub struct Response {
     pub decimals: Option<u32>,
     /// Assay (decides robustness) or suitability (sets limits).
     pub role: model::Role,
+    /// Planning estimates for `plateau power`.
+    pub planning: Option<Planning>,
 }
 
 /// A statistical criterion for the effects of one response.
@@ -286,4 +288,17 @@ impl Study {
         let locator = locate::Locator::new(&self.text);
         Diagnostic::field(&self.file_name, field, problem, expected).at(locator.value(&field.0))
     }
+}
+
+/// Planning estimates of a response (`responses[].planning`).
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Planning {
+    /// Expected standard deviation of one determination (NaN when only a level is given).
+    pub sd: f64,
+    /// Its degrees of freedom (none: taken as known).
+    pub df: Option<f64>,
+    /// Expected response level, for percent limits.
+    pub level: Option<f64>,
+    /// Where the estimate comes from.
+    pub source: Option<String>,
 }

@@ -23,7 +23,7 @@ pub struct StudyFile {
     pub design: DesignSpec,
     /// What is measured in each run.
     pub responses: Vec<ResponseSpec>,
-    /// Acceptance rules declared before the data were seen.
+    /// Acceptance rules: the criteria the effects are judged by.
     #[serde(default)]
     pub acceptance: Vec<AcceptanceSpec>,
     /// The measured values, inline or in a CSV file (absent while the study is planned).
@@ -384,6 +384,27 @@ pub struct ResponseSpec {
     /// `assay` (default) or `suitability`.
     #[serde(default)]
     pub role: Option<Role>,
+    /// Planning estimates for `plateau power`.
+    #[serde(default)]
+    pub planning: Option<Planning>,
+}
+
+/// Planning estimates of a response, before any result.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct Planning {
+    /// Expected standard deviation of one determination.
+    #[serde(default)]
+    pub sd: Option<f64>,
+    /// Its degrees of freedom (none: taken as known).
+    #[serde(default)]
+    pub df: Option<f64>,
+    /// Expected response level, for percent limits.
+    #[serde(default)]
+    pub level: Option<f64>,
+    /// Where the estimate comes from.
+    #[serde(default)]
+    pub source: Option<String>,
 }
 
 /// Unit of an effect limit.
