@@ -532,6 +532,7 @@ pub fn analyse_response(
     } else {
         None // the uncertainty budget is for results; suitability responses set limits instead
     };
+    let routine_risk = routine_risk(study, r, &fit, &effects_out, &error, &suitability);
 
     // Indices sorted by run order, so each run's values are found without a search.
     let mut in_order: Vec<(usize, &crate::design::PlannedRun)> =
@@ -591,9 +592,58 @@ pub fn analyse_response(
         worst_case: worst,
         control_ranges,
         uncertainty,
+        routine_risk,
         verdict,
         notes,
     })
+}
+
+/// Routine risk from the model: main effects and the clean interactions judged relevant or
+/// significant, with the run-to-run error of the study (pure error; else the precision rule's
+/// s/√n; else the fit's residual).
+fn routine_risk(
+    study: &Study,
+    r: usize,
+    fit: &Fit,
+    effects: &[Effect],
+    error: &ErrorEstimate,
+    suitability: &[&crate::study::SuitabilityLimit],
+) -> Option<super::risk::RoutineRisk> {
+    use super::risk::{ErrorSource, Term};
+    let min = suitability.iter().find_map(|l| l.min);
+    let max = suitability.iter().find_map(|l| l.max);
+    let index = |id: &String| study.factors.iter().position(|f| &f.id == id);
+    let terms: Vec<Term> = effects
+        .iter()
+        .filter(|e| !e.dummy && !e.effect.is_nan())
+        .filter(|e| {
+            e.order == 1
+                || (e.estimable && (e.relevant == Some(true) || e.significant == Some(true)))
+        })
+        .filter_map(|e| {
+            let factors: Option<Vec<usize>> = e.factors.iter().map(index).collect();
+            Some(Term {
+                label: e.label.clone(),
+                b: e.effect / 2.0,
+                factors: factors?,
+            })
+        })
+        .collect();
+    let precision = study
+        .significance
+        .iter()
+        .find(|s| s.response == r && s.method == Method::Precision)
+        .and_then(|s| s.s.map(|sd| sd / (s.determinations.max(1) as f64).sqrt()));
+    let err = match (error.s.filter(|_| error.df > 0), precision) {
+        (Some(s), _) => (s, ErrorSource::PureError),
+        (None, Some(s)) => (s, ErrorSource::PrecisionRule),
+        (None, None) if fit.df_residual() > 0 => (
+            (fit.rss / fit.df_residual() as f64).sqrt(),
+            ErrorSource::Residual,
+        ),
+        (None, None) => (0.0, ErrorSource::None),
+    };
+    super::risk::routine_risk(study, fit.intercept, &terms, (min, max), err)
 }
 
 /// Significance level of the drift test that flags an uncorrected drift (common practice).

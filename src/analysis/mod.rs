@@ -13,6 +13,7 @@ pub mod judge;
 pub mod model;
 pub mod power;
 pub mod quantile;
+pub mod risk;
 pub mod text;
 pub mod verdict;
 
@@ -182,6 +183,8 @@ pub struct ResponseAnalysis {
     pub control_ranges: Vec<judge::ControlRange>,
     /// Uncertainty contributions of the factors with a routine variation.
     pub uncertainty: Option<judge::UncertaintySummary>,
+    /// Probability that a routine run falls outside the response's min/max limits.
+    pub routine_risk: Option<risk::RoutineRisk>,
     /// The verdict.
     pub verdict: Verdict,
     /// Facts the reader must see (excluded runs, least squares, drift, references), as data.

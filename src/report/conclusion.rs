@@ -467,6 +467,26 @@ fn response_block(
             p_relation(c.p.unwrap_or(f64::NAN))
         ));
     }
+    if let Some(k) = &r.routine_risk {
+        let limit = match (k.min, k.max) {
+            (Some(lo), Some(hi)) => format!(
+                "outside {} to {}{}",
+                setting(lo),
+                setting(hi),
+                unit_suffix(r)
+            ),
+            (Some(lo), None) => format!("below {}{}", setting(lo), unit_suffix(r)),
+            (None, Some(hi)) => format!("above {}{}", setting(hi), unit_suffix(r)),
+            (None, None) => String::new(),
+        };
+        out.push(format!(
+            "With the routine variation of {} and the run-to-run scatter of this study, a routine run falls {limit} with a probability of {} (Monte Carlo, {} draws, standard error {}).",
+            and_list(&k.factors.iter().map(|f| factor_name(study, &f.factor)).collect::<Vec<_>>()),
+            probability_text(k.probability),
+            k.draws,
+            probability_text(k.mc_se),
+        ));
+    }
     if let Some(u) = &r.uncertainty {
         out.push(format!(
             "The routine variation of {} contributes a combined standard uncertainty of {}{}.",
@@ -499,6 +519,19 @@ fn capitalise(text: &str) -> String {
     match chars.next() {
         Some(c) => c.to_uppercase().chain(chars).collect(),
         None => String::new(),
+    }
+}
+
+/// A probability as a percentage with two significant figures (at least 0.01 %).
+fn probability_text(p: f64) -> String {
+    if p <= 0.0 {
+        "0 %".into()
+    } else if p < 1e-4 {
+        "< 0.01 %".into()
+    } else {
+        let pct = 100.0 * p;
+        let d = (1 - pct.log10().floor() as i32).clamp(0, 3) as u32;
+        format!("{} %", fixed(pct, d))
     }
 }
 

@@ -48,6 +48,7 @@ pub const EMBEDDED: &[(&str, &str)] = &[
     case!("lenth-dong-bhh-table-5-11.yaml"),
     case!("plackett-burman-12.yaml"),
     case!("precision-negligible-criteria.yaml"),
+    case!("routine-risk-normal.yaml"),
     case!("worst-case-uncertainty-ranges.yaml"),
 ];
 
