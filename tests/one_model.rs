@@ -277,3 +277,114 @@ fn check_warns_when_the_design_cannot_detect_the_limit() {
     );
     assert!(run.stderr.contains("plateau power"), "{}", run.stderr);
 }
+
+/// The half fraction C = AB of `verification/cases/aliased-chain-unresolved.yaml`, whose only
+/// relevant column is the chain C = A×B.
+fn half_fraction(dir: &tempfile::TempDir) -> PathBuf {
+    study(
+        dir,
+        &format!(
+            "{HEAD}factors:
+  - {{ id: A, name: Factor A, nominal: 10, delta: 1 }}
+  - {{ id: B, name: Factor B, nominal: 20, delta: 1 }}
+  - {{ id: C, name: Factor C, nominal: 30, delta: 1 }}
+design:
+  kind: fractional-factorial
+  generators: [\"C = AB\"]
+  alias-order: 2
+responses:
+  - {{ id: assay, name: Assay, unit: \"%\", percent-of: mean }}
+acceptance:
+  - {{ response: assay, effect-limit: 5.0, basis: lab rule }}
+results:
+  runs:
+    - {{ run: 1, assay: 103.7 }}
+    - {{ run: 2, assay: 96.1 }}
+    - {{ run: 3, assay: 95.9 }}
+    - {{ run: 4, assay: 104.3 }}
+"
+        ),
+    )
+}
+
+#[test]
+fn follow_up_writes_the_fold_over_runs_as_block_two_and_never_overwrites() {
+    let dir = tempfile::tempdir().unwrap();
+    let first = half_fraction(&dir);
+    let out = dir.path().join("follow.yaml");
+    plateau(&["follow-up"])
+        .arg_path(&first)
+        .arg("-o")
+        .arg_path(&out)
+        .ok();
+    let text = std::fs::read_to_string(&out).unwrap();
+    // Block 2 mirrors every run of block 1 (full fold-over of a resolution III fraction).
+    assert!(
+        text.contains("{ run: 1, block: 1, order: 1, A: -1, B: -1, C: 1 }"),
+        "{text}"
+    );
+    for mirrored in [
+        "A: 1, B: 1, C: -1",
+        "A: -1, B: 1, C: 1",
+        "A: 1, B: -1, C: 1",
+        "A: -1, B: -1, C: -1",
+    ] {
+        assert!(
+            text.lines()
+                .any(|l| l.contains("block: 2") && l.contains(mirrored)),
+            "{mirrored} missing:\n{text}"
+        );
+    }
+    assert!(text.contains("# - { run: 5, assay: }"), "{text}");
+    // A second call refuses to replace the file.
+    let again = plateau(&["follow-up"])
+        .arg_path(&first)
+        .arg("-o")
+        .arg_path(&out)
+        .code(1);
+    assert!(again.stderr.contains("already exists"), "{}", again.stderr);
+    assert_eq!(std::fs::read_to_string(&out).unwrap(), text);
+
+    // Filled in, the two blocks are analysed together: A×B is separated from C.
+    let filled: String = text
+        .lines()
+        .map(|l| match l.trim_start().strip_prefix("# - { run: ") {
+            Some(rest) => {
+                let run: u32 = rest.split(',').next().unwrap().trim().parse().unwrap();
+                // Mirror runs 5–8 of y = 100 + 4·A·B (A·B unchanged by a full fold) + 0.6.
+                let ab = [1.0, -1.0, -1.0, 1.0][(run - 5) as usize];
+                format!("    - {{ run: {run}, assay: {} }}", 100.6 + 4.0 * ab)
+            }
+            None => l.to_string(),
+        })
+        .collect::<Vec<_>>()
+        .join("\n");
+    std::fs::write(&out, filled).unwrap();
+    let doc = json_of(&plateau(&["analyze", "--json"]).arg_path(&out).ok().stdout);
+    let r = &doc["responses"][0];
+    assert_eq!(r["verdict"]["outcome"], "not-robust", "{}", r["verdict"]);
+    assert_eq!(r["verdict"]["relevant_interactions"][0], "A×B");
+    assert!(r["block_effect"]["effect"].is_number());
+}
+
+#[test]
+fn follow_up_without_an_unresolved_chain_asks_for_a_term() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = study(
+        &dir,
+        &two_factor(
+            "  kind: full-factorial",
+            "  - { id: assay, name: Assay, percent-of: mean }",
+            "acceptance:\n  - { response: assay, effect-limit: 2.0 }",
+            "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 99.4}\n    - {run: 3, assay: 99.2}\n    - {run: 4, assay: 99.6}",
+        ),
+    );
+    let out = dir.path().join("f.yaml");
+    let run = plateau(&["follow-up"])
+        .arg_path(&path)
+        .arg("-o")
+        .arg_path(&out)
+        .code(1);
+    assert!(run.stderr.contains("--separate"), "{}", run.stderr);
+    assert!(!out.exists());
+}

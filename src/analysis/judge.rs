@@ -303,12 +303,19 @@ pub fn analyse_response(
 
     // 3. The fit of the two-level run means.
     let (rows, y, nominal_y) = split_runs(design, &runs);
+    let blocks: Vec<u8> = design
+        .runs
+        .iter()
+        .zip(&runs.used)
+        .filter(|(run, u)| **u && !run.nominal)
+        .map(|(run, _)| run.block)
+        .collect();
     let two_level_excluded = design
         .runs
         .iter()
         .zip(&runs.used)
         .any(|(run, u)| !run.nominal && !*u);
-    let fit = fit_model(design, &rows, &y, two_level_excluded).ok_or_else(|| {
+    let fit = fit_model(design, &rows, &blocks, &y, two_level_excluded).ok_or_else(|| {
         problem(
             FieldPath::of(&["excluded"]),
             format!(
@@ -323,6 +330,12 @@ pub fn analyse_response(
             dropped: fit.dropped.iter().map(|t| design.label(*t)).collect(),
         });
     }
+    let block_effect = fit.effect(BLOCK_TERM).map(|e| super::BlockEffect {
+        effect: e,
+        se_ratio: fit
+            .c(BLOCK_TERM)
+            .map_or(f64::NAN, |c| (fit.n as f64 * c).sqrt()),
+    });
     let n_fit = fit.n;
 
     // 4. The error estimate: replicated whole runs and nominal runs (about the drift line when
@@ -593,6 +606,7 @@ pub fn analyse_response(
         control_ranges,
         uncertainty,
         routine_risk,
+        block_effect,
         verdict,
         notes,
     })
@@ -649,6 +663,10 @@ fn routine_risk(
 /// Significance level of the drift test that flags an uncorrected drift (common practice).
 pub const DRIFT_ALPHA: f64 = 0.05;
 
+/// The fit's column for the block of follow-up runs: −1 in block 1, +1 in block 2 (a term
+/// mask above every factor column, so it never names a factor).
+pub const BLOCK_TERM: TermMask = 1 << 63;
+
 /// The used two-level runs (coded rows and values) and the used nominal values.
 fn split_runs<'a>(design: &'a Design, runs: &Runs) -> (Vec<&'a [i8]>, Vec<f64>, Vec<f64>) {
     let mut rows: Vec<&[i8]> = Vec::new();
@@ -670,11 +688,18 @@ fn split_runs<'a>(design: &'a Design, runs: &Runs) -> (Vec<&'a [i8]>, Vec<f64>, 
 
 /// The fit of the two-level run means: by the fast transform or direct contrasts when the
 /// runs used are the orthogonal design as planned, by least squares otherwise.
-fn fit_model(design: &Design, rows: &[&[i8]], y: &[f64], excluded: bool) -> Option<Fit> {
+fn fit_model(
+    design: &Design,
+    rows: &[&[i8]],
+    blocks: &[u8],
+    y: &[f64],
+    excluded: bool,
+) -> Option<Fit> {
     if y.is_empty() {
         return None;
     }
-    if !design.least_squares && !excluded {
+    let blocked = blocks.iter().any(|b| *b != 1);
+    if !design.least_squares && !excluded && !blocked {
         let all = design
             .complete_factorial
             .then(|| fwht_effects(design, y))
@@ -693,17 +718,27 @@ fn fit_model(design: &Design, rows: &[&[i8]], y: &[f64], excluded: bool) -> Opti
         }
         return Some(Fit::orthogonal(y, terms, &values));
     }
-    let columns: Vec<(TermMask, Vec<f64>)> = design
-        .contrasts
-        .iter()
-        .map(|c| {
+    // The block column comes first: a factor column confounded with the blocks is the one
+    // left out (and named), never the block.
+    let block_column = blocked.then(|| {
+        (
+            BLOCK_TERM,
+            blocks
+                .iter()
+                .map(|b| if *b == 1 { -1.0 } else { 1.0 })
+                .collect::<Vec<f64>>(),
+        )
+    });
+    let columns: Vec<(TermMask, Vec<f64>)> = block_column
+        .into_iter()
+        .chain(design.contrasts.iter().map(|c| {
             (
                 c.term,
                 rows.iter()
                     .map(|row| f64::from(effects::column_value(row, c.term)))
                     .collect(),
             )
-        })
+        }))
         .collect();
     Fit::least_squares(&columns, y)
 }
@@ -720,7 +755,13 @@ fn nominal_point(study: &Study, design: &Design, fit: &Fit) -> Vec<f64> {
     let _ = design;
     fit.terms
         .iter()
-        .map(|t| term_factors(*t).into_iter().map(level).product())
+        .map(|t| {
+            if *t == BLOCK_TERM {
+                -1.0 // nominal runs belong to the first runs
+            } else {
+                term_factors(*t).into_iter().map(level).product()
+            }
+        })
         .collect()
 }
 
@@ -848,10 +889,13 @@ fn error_estimate(
     nominal_points: &[(f64, f64)],
     corrected: bool,
 ) -> ErrorEstimate {
-    let mut groups: BTreeMap<&[i8], Vec<f64>> = BTreeMap::new();
+    let mut groups: BTreeMap<(u8, &[i8]), Vec<f64>> = BTreeMap::new();
     for ((run, v), u) in design.runs.iter().zip(&runs.values).zip(&runs.used) {
         if *u && !run.nominal {
-            groups.entry(run.coded.as_slice()).or_default().push(*v);
+            groups
+                .entry((run.block, run.coded.as_slice()))
+                .or_default()
+                .push(*v);
         }
     }
     let (mut ss, mut df_rep) = (0.0, 0usize);
@@ -916,7 +960,14 @@ fn anova_from_fit(
     let terms: Vec<(String, f64)> = fit
         .terms
         .iter()
-        .filter_map(|t| fit.term_ss(*t).map(|ss| (design.label(*t), ss)))
+        .filter_map(|t| {
+            let label = if *t == BLOCK_TERM {
+                "block".to_string()
+            } else {
+                design.label(*t)
+            };
+            fit.term_ss(*t).map(|ss| (label, ss))
+        })
         .collect();
     let all_used: Vec<f64> = runs
         .values
@@ -943,10 +994,13 @@ fn anova_from_fit(
 
 /// The nominal runs' share of the pooled error sum of squares.
 fn nominal_share(error: &ErrorEstimate, runs: &Runs, design: &Design) -> f64 {
-    let mut groups: BTreeMap<&[i8], Vec<f64>> = BTreeMap::new();
+    let mut groups: BTreeMap<(u8, &[i8]), Vec<f64>> = BTreeMap::new();
     for ((run, v), u) in design.runs.iter().zip(&runs.values).zip(&runs.used) {
         if *u && !run.nominal {
-            groups.entry(run.coded.as_slice()).or_default().push(*v);
+            groups
+                .entry((run.block, run.coded.as_slice()))
+                .or_default()
+                .push(*v);
         }
     }
     let replicate: f64 = groups

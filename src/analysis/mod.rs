@@ -185,10 +185,21 @@ pub struct ResponseAnalysis {
     pub uncertainty: Option<judge::UncertaintySummary>,
     /// Probability that a routine run falls outside the response's min/max limits.
     pub routine_risk: Option<risk::RoutineRisk>,
+    /// The shift between block 2 (follow-up runs) and block 1, when there are two blocks.
+    pub block_effect: Option<BlockEffect>,
     /// The verdict.
     pub verdict: Verdict,
     /// Facts the reader must see (excluded runs, least squares, drift, references), as data.
     pub notes: Vec<Note>,
+}
+
+/// The shift of the follow-up runs (block 2) against the first runs (block 1).
+#[derive(Debug, Clone, Serialize)]
+pub struct BlockEffect {
+    /// Mean of block 2 minus mean of block 1, adjusted for the factor effects (2b).
+    pub effect: f64,
+    /// Its SE relative to an orthogonal effect of the same runs.
+    pub se_ratio: f64,
 }
 
 /// The one fitted model of a response.

@@ -30,6 +30,9 @@ pub struct PlannedRun {
     pub nominal: bool,
     /// Replicate number of the two-level part, 1-based (0 for nominal runs).
     pub replicate: usize,
+    /// Block (1, or 2 for the follow-up runs of an explicit design): the fit carries a block
+    /// column so that a shift between the two sets of runs is not taken for an effect.
+    pub block: u8,
 }
 
 /// One estimable contrast column and what it estimates.
@@ -415,6 +418,7 @@ fn assemble(
     let mut runs: Vec<PlannedRun> = two_level
         .into_iter()
         .map(|(id, coded, replicate)| PlannedRun {
+            block: 1,
             id,
             order: 0,
             coded,
@@ -422,6 +426,7 @@ fn assemble(
             replicate,
         })
         .chain(nominal_ids.into_iter().map(|id| PlannedRun {
+            block: 1,
             id,
             order: 0,
             coded: vec![0; k],
@@ -508,8 +513,15 @@ fn explicit(study: &Study) -> Result<Design, Diagnostics> {
         return Err(problems.sorted());
     }
     let orthogonal = is_orthogonal(&matrix, k);
+    let alias_order = study.design.alias_order.max(1);
     let contrasts = if orthogonal {
-        contrasts_from_matrix(&matrix, k)
+        // Chains shown up to the declared alias order, as for a regular fraction.
+        let mut contrasts = contrasts_from_matrix(&matrix, k);
+        contrasts.retain(|c| term_order(c.term) <= alias_order);
+        for c in &mut contrasts {
+            c.chain.retain(|(t, _)| term_order(*t) <= alias_order);
+        }
+        contrasts
     } else {
         // Only main effects can be fitted by least squares from a non-orthogonal matrix.
         (0..k)
@@ -544,6 +556,7 @@ fn explicit(study: &Study) -> Result<Design, Diagnostics> {
             generated.get(slot).copied().unwrap_or(slot + 1)
         };
         runs.push(PlannedRun {
+            block: r.block,
             id: r.id.clone(),
             order,
             coded: r.levels.clone(),
@@ -559,7 +572,7 @@ fn explicit(study: &Study) -> Result<Design, Diagnostics> {
         column_ids: study.factors.iter().map(|f| f.id.clone()).collect(),
         dummies: 0,
         structure: Structure {
-            alias_order: 1,
+            alias_order: if orthogonal { alias_order } else { 1 },
             ..Structure::default()
         },
         least_squares: !orthogonal,

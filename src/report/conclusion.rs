@@ -467,6 +467,13 @@ fn response_block(
             p_relation(c.p.unwrap_or(f64::NAN))
         ));
     }
+    if let Some(b) = &r.block_effect {
+        out.push(format!(
+            "The follow-up runs (block 2) sit {}{} from the first runs; the block column of the model takes this shift out of every effect.",
+            crate::report::format::signed(b.effect, r.decimals + 1),
+            unit_suffix(r)
+        ));
+    }
     if let Some(k) = &r.routine_risk {
         let limit = match (k.min, k.max) {
             (Some(lo), Some(hi)) => format!(

@@ -768,7 +768,7 @@ fn explicit_runs(
             );
         }
         for key in row.keys() {
-            if key != "run" && key != "order" && !ids.contains(&key.as_str()) {
+            if key != "run" && key != "order" && key != "block" && !ids.contains(&key.as_str()) {
                 let hint = closest(key, ids.iter().copied())
                     .map(|b| format!("did you mean `{b}`? "))
                     .unwrap_or_default();
@@ -804,7 +804,26 @@ fn explicit_runs(
                     Some("expected a two-level run (every factor at -1 or 1) or a nominal run (every factor at 0)".into()),
                 );
             }
-            out.push(ExplicitRun { id, order, levels });
+            let block = match row.get("block") {
+                None => 1,
+                Some(v) => match v.as_u64() {
+                    Some(b @ 1..=2) => b as u8,
+                    _ => {
+                        c.report(
+                            &here.key("block"),
+                            format!("block `{v}` of run `{id}`"),
+                            Some("expected 1 (the first runs) or 2 (the follow-up runs)".into()),
+                        );
+                        1
+                    }
+                },
+            };
+            out.push(ExplicitRun {
+                id,
+                order,
+                levels,
+                block,
+            });
         }
     }
     if !orders.is_empty() && orders.len() != rows.len() {

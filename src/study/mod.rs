@@ -192,6 +192,8 @@ pub struct DesignRequest {
 /// One run of an explicit design.
 #[derive(Debug, Clone)]
 pub struct ExplicitRun {
+    /// Block: 1, or 2 for follow-up runs.
+    pub block: u8,
     /// Run id.
     pub id: RunId,
     /// Executed position, if given.

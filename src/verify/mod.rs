@@ -43,6 +43,7 @@ pub const EMBEDDED: &[(&str, &str)] = &[
     case!("drift-relative.yaml"),
     case!("dummies-pb12.yaml"),
     case!("excluded-run-least-squares.yaml"),
+    case!("follow-up-fold-over.yaml"),
     case!("fraction-2-3-1.yaml"),
     case!("interaction-verdict.yaml"),
     case!("lenth-dong-bhh-table-5-11.yaml"),
