@@ -42,6 +42,9 @@ pub struct Analysis {
     /// Alias chains beyond the limit on an assay response that the design cannot resolve,
     /// with the follow-up runs that would.
     pub unresolved: Vec<UnresolvedSummary>,
+    /// Power of the planned design to detect each declared limit (responses with a
+    /// precision rule or a planning estimate).
+    pub power: Option<power::PowerAnalysis>,
     /// Where the numbers come from.
     pub provenance: Provenance,
 }
@@ -346,6 +349,7 @@ pub fn analyse(
         non_robust_factors: non_robust,
         significant_factors: significant,
         unresolved,
+        power: power::analyse(study, design, power::DEFAULT_TARGET).ok(),
         provenance: Provenance {
             plateau_version: env!("CARGO_PKG_VERSION").to_string(),
             study_file: study.path.file_name().map_or_else(

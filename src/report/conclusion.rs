@@ -542,6 +542,15 @@ fn probability_text(p: f64) -> String {
     }
 }
 
+/// A probability in words for prose: `80 %`, `> 99.9 %`.
+fn percent_words(p: f64) -> String {
+    if p > 0.999 {
+        "more than 99.9 %".into()
+    } else {
+        format!("{} %", fixed(100.0 * p, if p >= 0.1 { 0 } else { 1 }))
+    }
+}
+
 /// `= 0.012` or `< 0.001`.
 fn p_relation(p: f64) -> String {
     let t = p_text(p);
@@ -721,6 +730,31 @@ fn limitations(analysis: &Analysis) -> Vec<String> {
             ))
         })
         .collect();
+    if let Some(p) = &analysis.power {
+        for r in p.responses.iter().filter(|r| r.mde.is_some()) {
+            let unit = r
+                .unit
+                .as_deref()
+                .map(|u| format!(" {u}"))
+                .unwrap_or_default();
+            let mut s = format!(
+                "Planning power for {}: with s = {}{unit} per determination, an effect of {}{unit} is detected with {} probability",
+                r.name,
+                crate::report::format::fixed(r.precision.as_ref().map_or(f64::NAN, |p| p.s), 3),
+                crate::report::format::fixed(r.mde.unwrap_or(f64::NAN), 3),
+                percent_words(p.target)
+            );
+            if let (Some(l), Some(pw)) = (r.limit, r.power) {
+                s.push_str(&format!(
+                    ", and an effect as large as the limit ({}{unit}) with {} probability",
+                    crate::report::format::fixed(l, 3),
+                    percent_words(pw)
+                ));
+            }
+            s.push_str(" (noncentral t).");
+            out.push(s);
+        }
+    }
     let mut s = format!(
         "An effect below the limit is not proof that no effect exists: these conclusions hold for the ranges tested, the {two_level} two-level runs performed and the criteria stated"
     );
