@@ -75,7 +75,7 @@ fn every_figure_of_the_example_exists_as_svg_with_its_labels() {
     let out = dir.path().join("r");
     report_no_pdf(&example(EXAMPLE), &out);
     for response in ["assay", "resolution"] {
-        for kind in ["halfnormal", "effects", "main-effects", "run-order"] {
+        for kind in ["halfnormal", "effect-bars", "main-effects", "run-order"] {
             let path = out.join(format!("{kind}-{response}.svg"));
             let svg = read(&path);
             assert!(svg.starts_with("<svg"), "{} is not an SVG", path.display());
@@ -84,7 +84,7 @@ fn every_figure_of_the_example_exists_as_svg_with_its_labels() {
     }
     // Term labels on the effect plots; the limit line where a limit is declared (assay: 2 %).
     let half = read(&out.join("halfnormal-assay.svg"));
-    let bars = read(&out.join("effects-assay.svg"));
+    let bars = read(&out.join("effect-bars-assay.svg"));
     for svg in [&half, &bars] {
         let texts = svg_texts(svg);
         for term in ["temp", "ph", "flow", "temp×ph", "temp×ph×flow"] {
@@ -106,7 +106,7 @@ fn every_figure_of_the_example_exists_as_svg_with_its_labels() {
         svg_texts(&bars)
     );
     assert!(
-        !read(&out.join("effects-resolution.svg")).contains("limit"),
+        !read(&out.join("effect-bars-resolution.svg")).contains("limit"),
         "no limit declared for resolution"
     );
     // Level texts with units and the factor names on the main-effects plot.
@@ -130,7 +130,7 @@ fn every_figure_of_the_example_exists_as_svg_with_its_labels() {
     let section = read(&out.join("section.typ"));
     for file in [
         "halfnormal-assay.svg",
-        "effects-assay.svg",
+        "effect-bars-assay.svg",
         "main-effects-assay.svg",
         "run-order-assay.svg",
     ] {
@@ -166,7 +166,7 @@ fn a_relevant_clean_interaction_gets_its_own_figure() {
     report_no_pdf(&fixture("report-fraction/study.yaml"), &out);
     let svgs: Vec<String> = names(&out)
         .into_iter()
-        .filter(|n| n.starts_with("interaction-"))
+        .filter(|n| n.starts_with("interaction-") && n.ends_with(".svg"))
         .collect();
     assert_eq!(svgs, ["interaction-content-temp-ph.svg"]);
     let svg = read(&out.join("interaction-content-temp-ph.svg"));
@@ -213,8 +213,9 @@ fn the_report_folder_holds_the_pdf_sources_figures_tables_and_nothing_else() {
     .map(|s| s.to_string())
     .collect();
     for response in ["assay", "resolution"] {
-        for kind in ["halfnormal", "effects", "main-effects", "run-order"] {
+        for kind in ["halfnormal", "effect-bars", "main-effects", "run-order"] {
             expected.push(format!("{kind}-{response}.svg"));
+            expected.push(format!("{kind}-{response}.csv"));
         }
     }
     expected.sort();
@@ -377,8 +378,8 @@ fn a_section_number_prefixes_every_heading_of_the_chapter() {
         let text = plateau::report::render::render(&env, name, value.clone()).unwrap();
         std::fs::write(root.join(out), text).unwrap();
     }
-    for f in &figures {
-        std::fs::write(root.join(&f.file), &f.svg).unwrap();
+    for (name, bytes) in figures.files() {
+        std::fs::write(root.join(name), bytes).unwrap();
     }
     let packages = root.join("no-packages");
     std::fs::create_dir_all(&packages).unwrap();
