@@ -986,9 +986,13 @@ fn run_order_figure(
     }
     if let Some(ex) = excluded_runs_text(response) {
         caption.push_str(&format!(
-            "; {ex}, excluded from the evaluation, {} drawn as open red {}",
+            "; {ex}, excluded from the evaluation, {} drawn as {}",
             if excluded == 1 { "is" } else { "are" },
-            if excluded == 1 { "circle" } else { "circles" }
+            if excluded == 1 {
+                "an open red circle"
+            } else {
+                "open red circles"
+            }
         ));
     }
     let points = values.len() * if corrected { 2 } else { 1 };
