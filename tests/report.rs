@@ -791,9 +791,10 @@ fn the_run_order_chart_plots_the_corrected_values_and_draws_the_excluded_run_apa
     assert_eq!(run4["excluded"], "true");
     let svg = svg_texts(&read(&out.join("run-order-assay.svg")));
     for legend in [
-        "excluded run (not used)",
-        "as measured, before drift correction",
+        "excluded run",
+        "as measured",
         "nominal run",
+        "drift (least squares)",
     ] {
         assert!(svg.iter().any(|t| t == legend), "no {legend:?} in {svg:?}");
     }

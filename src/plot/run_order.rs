@@ -214,13 +214,14 @@ pub fn run_order(input: &RunOrder) -> Result<String, PlotError> {
         });
     }
 
+    let rows = legend_rows(legend, style::WIDTH as i32 - 24);
     let mut buf = String::new();
     {
         let root =
             SVGBackend::with_string(&mut buf, (style::WIDTH, style::HEIGHT)).into_drawing_area();
         root.fill(&style::PAPER).map_err(style::backend(FIGURE))?;
         let mut chart = ChartBuilder::on(&root)
-            .margin_top(36)
+            .margin_top(if rows.len() > 1 { 56 } else { 36 })
             .margin_left(8)
             .margin_right(18)
             .margin_bottom(8)
@@ -303,12 +304,31 @@ pub fn run_order(input: &RunOrder) -> Result<String, PlotError> {
             style::draw_marker_sized(&root, c, marker, color, r, FIGURE)?;
         }
 
-        let width = style::legend_width(&legend);
-        let x = ((left + right) / 2 - width / 2).max(8);
-        style::draw_legend(&root, x, 16, &legend, FIGURE)?;
+        for (i, row) in rows.iter().enumerate() {
+            let width = style::legend_width(row);
+            let x = ((left + right) / 2 - width / 2).max(8);
+            style::draw_legend(&root, x, 16 + 20 * i as i32, row, FIGURE)?;
+        }
         root.present().map_err(style::backend(FIGURE))?;
     }
     Ok(style::finish(buf))
+}
+
+/// The legend entries split into rows no wider than `width` pixels, in order (one row when
+/// they fit).
+fn legend_rows(entries: Vec<LegendEntry>, width: i32) -> Vec<Vec<LegendEntry>> {
+    let mut rows: Vec<Vec<LegendEntry>> = vec![Vec::new()];
+    for e in entries {
+        if let Some(row) = rows.last_mut() {
+            row.push(e);
+            if row.len() > 1 && style::legend_width(row) > width {
+                if let Some(moved) = row.pop() {
+                    rows.push(vec![moved]);
+                }
+            }
+        }
+    }
+    rows
 }
 
 /// One vertical stroke per pixel column from the lowest to the highest of `points` in it.

@@ -708,7 +708,7 @@ fn interaction_figures(
             .iter()
             .find(|e| e.aliases.iter().any(|chain| ids_mask(study, chain) == mask));
         match (own, sharing) {
-            (Some(e), _) if e.estimable && e.aliases.is_empty() => {
+            (Some(e), _) if e.estimable => {
                 if !wanted.iter().any(|w| std::ptr::eq(*w, e)) {
                     wanted.push(e);
                 }
@@ -962,19 +962,15 @@ fn run_order_figure(
         y_title: titled(response),
         run_label: "two-level run".to_string(),
         nominal_label: "nominal run".to_string(),
-        drift_label: if corrected {
-            "drift as measured (least squares)".to_string()
-        } else {
-            "drift (least squares)".to_string()
-        },
-        excluded_label: "excluded run (not used)".to_string(),
-        raw_label: "as measured, before drift correction".to_string(),
+        drift_label: "drift (least squares)".to_string(),
+        excluded_label: "excluded run".to_string(),
+        raw_label: "as measured".to_string(),
     })?;
     let mut caption = format!(
         "{} of every run in the order performed{}",
         titled(response),
         if corrected {
-            ", after drift correction (filled markers, the values the effects were computed from) and as measured (open squares)"
+            ", after drift correction (filled markers, the values the effects were computed from) and as measured before the correction (open grey squares; the dashed drift line is fitted to the nominal runs as measured)"
         } else {
             ""
         }
