@@ -306,7 +306,7 @@ fn the_pdf_shows_the_figures_with_numbered_captions() {
     for caption in [
         "Figure 1: Half-normal plot of the 7 absolute effects on Assay",
         "Figure 2: Absolute percent effects on Assay",
-        "Figure 3: Mean Assay",
+        "Figure 3: Model means of Assay",
         "Figure 4: Assay (% label claim) of every run",
         "Figure 5: Half-normal plot of the 7 absolute effects on Resolution",
         "Figure 8: Resolution tarvenolide / impurity B of every run",

@@ -307,6 +307,9 @@ fn level_text(factor: &Factor, coded: i8) -> String {
 /// Most effects drawn in one half-normal plot or bar chart.
 pub const MAX_DRAWN: usize = 63;
 
+/// Effects labelled in a half-normal plot of more than [`MAX_DRAWN`] effects (the largest).
+pub const LABELLED_OF_MANY: usize = 10;
+
 fn half_normal_figure(response: &ResponseAnalysis, numbers: Numbers) -> Result<Figure, PlotError> {
     // Daniel (1959): the i-th smallest of m absolute effects is plotted against the
     // half-normal quantile of (i − 0.5)/m; ties keep design order (stable sort).
@@ -316,12 +319,23 @@ fn half_normal_figure(response: &ResponseAnalysis, numbers: Numbers) -> Result<F
     // Scores come from all m effects; a large design draws only its upper tail, where the real
     // effects stand out, so the labels stay readable.
     let skip = effects.len().saturating_sub(MAX_DRAWN);
+    // A large design labels only its largest effects; the crowded tail stays unlabelled.
+    let unlabelled = if skip > 0 {
+        effects.len().saturating_sub(LABELLED_OF_MANY)
+    } else {
+        0
+    };
     let points = effects
         .iter()
         .zip(scores)
+        .enumerate()
         .skip(skip)
-        .map(|(e, score)| plot::HalfNormalPoint {
-            label: short_label(e),
+        .map(|(i, (e, score))| plot::HalfNormalPoint {
+            label: if i >= unlabelled {
+                short_label(e)
+            } else {
+                String::new()
+            },
             abs_effect: e.effect.abs(),
             score,
         })
@@ -377,7 +391,7 @@ fn half_normal_figure(response: &ResponseAnalysis, numbers: Numbers) -> Result<F
     );
     if response.effects.len() > MAX_DRAWN {
         caption.push_str(&format!(
-            " Only the {MAX_DRAWN} largest are drawn; their scores are those among all {}.",
+            " Only the {MAX_DRAWN} largest are drawn, the {LABELLED_OF_MANY} largest labelled; their scores are those among all {}.",
             response.effects.len()
         ));
     }

@@ -68,7 +68,7 @@ fn unit_of(study: &Study, id: &str) -> String {
 
 /// A proposed factor setting: one decimal more than the factor's levels need (the chapter's
 /// number rule), so 32.24 °C prints as 32.2 °C beside levels 33 and 37 °C.
-fn range_setting(study: &Study, id: &str, x: f64) -> String {
+pub fn range_setting(study: &Study, id: &str, x: f64) -> String {
     let decimals = study
         .factors
         .iter()
