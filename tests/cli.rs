@@ -138,8 +138,9 @@ fn report_without_pdf_writes_the_documented_files_and_nothing_else() {
     .map(|s| s.to_string())
     .collect();
     for response in ["assay", "resolution"] {
-        for kind in ["halfnormal", "effects", "main-effects", "run-order"] {
+        for kind in ["halfnormal", "effect-bars", "main-effects", "run-order"] {
             expected.push(format!("{kind}-{response}.svg"));
+            expected.push(format!("{kind}-{response}.csv"));
         }
     }
     expected.sort();

@@ -75,7 +75,7 @@ fn every_figure_of_the_example_exists_as_svg_with_its_labels() {
     let out = dir.path().join("r");
     report_no_pdf(&example(EXAMPLE), &out);
     for response in ["assay", "resolution"] {
-        for kind in ["halfnormal", "effects", "main-effects", "run-order"] {
+        for kind in ["halfnormal", "effect-bars", "main-effects", "run-order"] {
             let path = out.join(format!("{kind}-{response}.svg"));
             let svg = read(&path);
             assert!(svg.starts_with("<svg"), "{} is not an SVG", path.display());
@@ -84,7 +84,7 @@ fn every_figure_of_the_example_exists_as_svg_with_its_labels() {
     }
     // Term labels on the effect plots; the limit line where a limit is declared (assay: 2 %).
     let half = read(&out.join("halfnormal-assay.svg"));
-    let bars = read(&out.join("effects-assay.svg"));
+    let bars = read(&out.join("effect-bars-assay.svg"));
     for svg in [&half, &bars] {
         let texts = svg_texts(svg);
         for term in ["temp", "ph", "flow", "temp×ph", "temp×ph×flow"] {
@@ -106,7 +106,7 @@ fn every_figure_of_the_example_exists_as_svg_with_its_labels() {
         svg_texts(&bars)
     );
     assert!(
-        !read(&out.join("effects-resolution.svg")).contains("limit"),
+        !read(&out.join("effect-bars-resolution.svg")).contains("limit"),
         "no limit declared for resolution"
     );
     // Level texts with units and the factor names on the main-effects plot.
@@ -130,7 +130,7 @@ fn every_figure_of_the_example_exists_as_svg_with_its_labels() {
     let section = read(&out.join("section.typ"));
     for file in [
         "halfnormal-assay.svg",
-        "effects-assay.svg",
+        "effect-bars-assay.svg",
         "main-effects-assay.svg",
         "run-order-assay.svg",
     ] {
@@ -166,7 +166,7 @@ fn a_relevant_clean_interaction_gets_its_own_figure() {
     report_no_pdf(&fixture("report-fraction/study.yaml"), &out);
     let svgs: Vec<String> = names(&out)
         .into_iter()
-        .filter(|n| n.starts_with("interaction-"))
+        .filter(|n| n.starts_with("interaction-") && n.ends_with(".svg"))
         .collect();
     assert_eq!(svgs, ["interaction-content-temp-ph.svg"]);
     let svg = read(&out.join("interaction-content-temp-ph.svg"));
@@ -213,8 +213,9 @@ fn the_report_folder_holds_the_pdf_sources_figures_tables_and_nothing_else() {
     .map(|s| s.to_string())
     .collect();
     for response in ["assay", "resolution"] {
-        for kind in ["halfnormal", "effects", "main-effects", "run-order"] {
+        for kind in ["halfnormal", "effect-bars", "main-effects", "run-order"] {
             expected.push(format!("{kind}-{response}.svg"));
+            expected.push(format!("{kind}-{response}.csv"));
         }
     }
     expected.sort();
@@ -305,7 +306,7 @@ fn the_pdf_shows_the_figures_with_numbered_captions() {
     for caption in [
         "Figure 1: Half-normal plot of the 7 absolute effects on Assay",
         "Figure 2: Absolute percent effects on Assay",
-        "Figure 3: Mean Assay",
+        "Figure 3: Model means of Assay",
         "Figure 4: Assay (% label claim) of every run",
         "Figure 5: Half-normal plot of the 7 absolute effects on Resolution",
         "Figure 8: Resolution tarvenolide / impurity B of every run",
@@ -377,8 +378,8 @@ fn a_section_number_prefixes_every_heading_of_the_chapter() {
         let text = plateau::report::render::render(&env, name, value.clone()).unwrap();
         std::fs::write(root.join(out), text).unwrap();
     }
-    for f in &figures {
-        std::fs::write(root.join(&f.file), &f.svg).unwrap();
+    for (name, bytes) in figures.files() {
+        std::fs::write(root.join(name), bytes).unwrap();
     }
     let packages = root.join("no-packages");
     std::fs::create_dir_all(&packages).unwrap();
@@ -669,4 +670,381 @@ fn the_negative_zero_check_can_fail() {
     assert!(has_negative_zero("-0.0 "));
     assert!(!has_negative_zero("\u{2212}0\\.03"));
     assert!(!has_negative_zero("2026\\-11\\-18"));
+}
+
+// ---- The chapter a reviewer can sign: figures, run table and numbers agree. ----
+
+/// An invented 2³ with three nominal runs, an additive drift correction, run 4 excluded, a
+/// response declared with 0 decimals and a requested temp×ph interaction plot.
+const CHAPTER: &str = "report-chapter/study.yaml";
+
+/// The rows of a CSV file as column → value maps.
+fn csv_rows(path: &Path) -> Vec<std::collections::BTreeMap<String, String>> {
+    let mut r = csv::Reader::from_path(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    let header: Vec<String> = r.headers().unwrap().iter().map(String::from).collect();
+    r.records()
+        .map(|rec| {
+            let rec = rec.unwrap();
+            header
+                .iter()
+                .cloned()
+                .zip(rec.iter().map(String::from))
+                .collect()
+        })
+        .collect()
+}
+
+fn number(row: &std::collections::BTreeMap<String, String>, column: &str) -> f64 {
+    row.get(column)
+        .unwrap_or_else(|| panic!("no column {column} in {row:?}"))
+        .parse()
+        .unwrap_or_else(|e| panic!("{column} = {:?}: {e}", row.get(column)))
+}
+
+/// The effect of `term` in `effects-<response>.csv`.
+fn tabulated_effect(out: &Path, response: &str, term: &str) -> f64 {
+    let rows = csv_rows(&out.join(format!("effects-{response}.csv")));
+    let row = rows
+        .iter()
+        .find(|r| r["term"] == term)
+        .unwrap_or_else(|| panic!("no term {term} in effects-{response}.csv"));
+    number(row, "effect")
+}
+
+/// section.typ as plain text: whitespace collapsed, Typst's markup escapes removed.
+fn section_text(out: &Path) -> String {
+    flat(&read(&out.join("section.typ"))).replace('\\', "")
+}
+
+fn chapter_report() -> (tempfile::TempDir, PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("r");
+    report_no_pdf(&fixture(CHAPTER), &out);
+    (dir, out)
+}
+
+#[test]
+fn main_effect_points_differ_by_the_tabulated_effect_under_exclusion_and_drift_correction() {
+    // The figure's two means of a factor are intercept ∓ E/2, so their difference is the
+    // effect of the effects table exactly (definition of an effect, Box, Hunter & Hunter 2005,
+    // §5.8); 1e-9 allows only floating-point rounding.
+    let (_dir, out) = chapter_report();
+    for response in ["assay", "area"] {
+        let rows = csv_rows(&out.join(format!("main-effects-{response}.csv")));
+        assert_eq!(rows.len(), 3, "one row per factor");
+        for row in &rows {
+            let table = tabulated_effect(&out, response, &row["factor"]);
+            let plotted = number(row, "mean_high") - number(row, "mean_low");
+            assert!(
+                (plotted - table).abs() < 1e-9 * table.abs().max(1.0),
+                "{response} {}: plotted {plotted}, table {table}",
+                row["factor"]
+            );
+        }
+    }
+}
+
+#[test]
+fn interaction_cells_reproduce_both_main_effects_and_the_interaction_of_the_table() {
+    // From four cell means ȳ(a, b): E_A = mean over b of ȳ(+, b) − ȳ(−, b), likewise E_B, and
+    // E_AB = [ȳ(+,+) − ȳ(−,+) − ȳ(+,−) + ȳ(−,−)]/2 (Box, Hunter & Hunter 2005, §5.8).
+    let (_dir, out) = chapter_report();
+    let rows = csv_rows(&out.join("interaction-assay-temp-ph.csv"));
+    let cell = |a: &str, b: &str| {
+        let row = rows
+            .iter()
+            .find(|r| r["temp_coded"] == a && r["ph_coded"] == b)
+            .unwrap();
+        number(row, "mean")
+    };
+    let (mm, pm, mp, pp) = (
+        cell("-1", "-1"),
+        cell("1", "-1"),
+        cell("-1", "1"),
+        cell("1", "1"),
+    );
+    let e_temp = (pm + pp - mm - mp) / 2.0;
+    let e_ph = (mp + pp - mm - pm) / 2.0;
+    let e_int = (pp - mp - pm + mm) / 2.0;
+    for (term, plotted) in [("temp", e_temp), ("ph", e_ph), ("temp×ph", e_int)] {
+        let table = tabulated_effect(&out, "assay", term);
+        assert!(
+            (plotted - table).abs() < 1e-9,
+            "{term}: plotted {plotted}, table {table}"
+        );
+    }
+}
+
+#[test]
+fn the_run_order_chart_plots_the_corrected_values_and_draws_the_excluded_run_apart() {
+    let (_dir, out) = chapter_report();
+    let analysis = common::json_of(&read(&out.join("analysis.json")));
+    let values = analysis["responses"][0]["values"].as_array().unwrap();
+    let rows = csv_rows(&out.join("run-order-assay.csv"));
+    assert_eq!(rows.len(), values.len());
+    for (row, v) in rows.iter().zip(values) {
+        assert_eq!(row["run"], v["run"].as_str().unwrap());
+        assert_eq!(number(row, "value_used"), v["value"].as_f64().unwrap());
+        assert_eq!(number(row, "value_as_measured"), v["raw"].as_f64().unwrap());
+    }
+    let run4 = rows.iter().find(|r| r["run"] == "4").unwrap();
+    assert_eq!(run4["excluded"], "true");
+    let svg = svg_texts(&read(&out.join("run-order-assay.svg")));
+    for legend in [
+        "excluded run",
+        "as measured",
+        "nominal run",
+        "drift (least squares)",
+    ] {
+        assert!(svg.iter().any(|t| t == legend), "no {legend:?} in {svg:?}");
+    }
+}
+
+#[test]
+fn without_a_drift_correction_the_run_order_chart_has_no_second_series() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("r");
+    report_no_pdf(&example(EXAMPLE), &out);
+    let header = read(&out.join("run-order-assay.csv"));
+    assert!(
+        header.starts_with("run,order,nominal,excluded,value_used\n"),
+        "{header}"
+    );
+    assert!(!read(&out.join("run-order-assay.svg")).contains("as measured"));
+}
+
+#[test]
+fn runs_csv_marks_the_excluded_run_with_its_reason_and_leaves_its_used_value_empty() {
+    let (_dir, out) = chapter_report();
+    let rows = csv_rows(&out.join("runs.csv"));
+    let run4 = rows.iter().find(|r| r["run"] == "4").unwrap();
+    assert_eq!(run4["excluded"], "true");
+    assert_eq!(
+        run4["exclusion_reason"],
+        "vial cap found loose after the run"
+    );
+    assert_eq!(run4["assay"], "104.3", "the value as measured stays");
+    assert_eq!(run4["assay_used"], "");
+    let run1 = rows.iter().find(|r| r["run"] == "1").unwrap();
+    assert_eq!(run1["excluded"], "false");
+    assert_eq!(run1["exclusion_reason"], "");
+    // Additive correction against the first nominal run (100.0 at order 1): run 1 at order 2
+    // is corrected by the interpolated nominal drift (arithmetic on the fixture's values).
+    assert_ne!(run1["assay_used"], run1["assay"]);
+}
+
+#[test]
+fn figure_csvs_are_ascii_with_plain_minus_signs() {
+    let (_dir, out) = chapter_report();
+    for name in names(&out).into_iter().filter(|n| n.ends_with(".csv")) {
+        let text = read(&out.join(&name));
+        assert!(
+            text.is_ascii() || !name.contains("order"),
+            "{name} is not ASCII"
+        );
+        assert!(!text.contains('\u{2212}'), "{name} has a typographic minus");
+    }
+    // Every figure has its CSV beside it.
+    for svg in names(&out).into_iter().filter(|n| n.ends_with(".svg")) {
+        let csv = svg.replace(".svg", ".csv");
+        assert!(out.join(&csv).exists(), "{csv} missing beside {svg}");
+    }
+}
+
+#[test]
+fn declared_zero_decimals_print_without_a_decimal_point_in_the_chapter() {
+    // Peak area declares `decimals: 0`: its reference and its effects print as whole counts.
+    let (_dir, out) = chapter_report();
+    let analysis = common::json_of(&read(&out.join("analysis.json")));
+    let area = &analysis["responses"][1];
+    assert_eq!(area["id"], "area");
+    let reference = area["reference"].as_f64().unwrap();
+    let effect = area["effects"][0]["effect"].as_f64().unwrap();
+    let section = section_text(&out);
+    let whole = format!("mean of the nominal runs, {reference:.0} counts");
+    assert!(section.contains(&whole), "no {whole:?} in {section}");
+    assert!(
+        !section.contains(&format!("{reference:.1} counts")),
+        "declared decimals ignored"
+    );
+    assert!(section.contains(&format!("[{effect:.0}]")), "{section}");
+    assert!(!section.contains(&format!("[{effect:.1}]")), "{section}");
+}
+
+#[test]
+fn a_requested_interaction_of_an_aliased_term_is_explained_not_dropped() {
+    // In the Youden–Steiner design every two-factor interaction shares a main-effect column.
+    let dir = tempfile::tempdir().unwrap();
+    let src = fixture("report-youden");
+    for f in ["study.yaml", "results.csv"] {
+        std::fs::copy(src.join(f), dir.path().join(f)).unwrap();
+    }
+    let study = dir.path().join("study.yaml");
+    let text = read(&study) + "figures:\n  interactions: [mass×vol]\n";
+    std::fs::write(&study, text).unwrap();
+    let out = dir.path().join("r");
+    report_no_pdf(&study, &out);
+    assert!(!names(&out).iter().any(|n| n.starts_with("interaction-")));
+    let section = section_text(&out);
+    assert!(
+        section.contains(
+            "No interaction plot of mass×vol on Content, although the study asks for one"
+        ),
+        "{section}"
+    );
+    assert!(section.contains("alias chain"), "{section}");
+}
+
+#[test]
+fn a_half_normal_plot_of_three_effects_is_replaced_by_its_reason() {
+    // A 2² has 3 effects, fewer than the 7 the chapter requires for a half-normal plot.
+    let dir = tempfile::tempdir().unwrap();
+    let study = dir.path().join("study.yaml");
+    std::fs::write(
+        &study,
+        "schema: 1
+study: { id: T-22, title: Two factors, method: M-1, analyst: A. B., date: 2026-01-05 }
+factors:
+  - { id: temp, name: Temperature, unit: °C, nominal: 35, delta: 2 }
+  - { id: ph, name: pH, nominal: 3.0, delta: 0.1 }
+design: { kind: full-factorial, randomize: false }
+responses:
+  - { id: assay, name: Assay, unit: '%' }
+results:
+  runs:
+    - { run: 1, assay: 99.1 }
+    - { run: 2, assay: 100.4 }
+    - { run: 3, assay: 99.6 }
+    - { run: 4, assay: 100.9 }
+",
+    )
+    .unwrap();
+    let out = dir.path().join("r");
+    report_no_pdf(&study, &out);
+    assert!(!out.join("halfnormal-assay.svg").exists());
+    let section = section_text(&out);
+    assert!(
+        section.contains(
+            "No half-normal plot of the effects on Assay: 3 effects are fewer than the 7"
+        ),
+        "{section}"
+    );
+}
+
+#[test]
+fn without_nominal_runs_no_figure_names_nominal_runs() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("r");
+    // The Youden–Steiner fixture has no nominal runs.
+    report_no_pdf(&fixture("report-youden/study.yaml"), &out);
+    for svg in names(&out).into_iter().filter(|n| n.ends_with(".svg")) {
+        assert!(
+            !read(&out.join(&svg)).contains("nominal run"),
+            "{svg} has a nominal-run legend"
+        );
+    }
+}
+
+#[test]
+fn the_pdf_marks_the_excluded_run_and_shows_raw_and_used_values() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("r");
+    report_pdf(&fixture(CHAPTER), &out);
+    let text = flat(&pdf_text(&out.join("report.pdf")));
+    assert!(
+        text.contains("excluded from the evaluation: vial cap found loose after the run"),
+        "{text}"
+    );
+    assert!(text.contains("assay used"), "{text}");
+    assert!(text.contains("not used"), "{text}");
+    // The corrected value of run 1 (as in runs.csv, rounded to the derived decimals).
+    let rows = csv_rows(&out.join("runs.csv"));
+    let run1 = rows.iter().find(|r| r["run"] == "1").unwrap();
+    let used = format!("{:.2}", number(run1, "assay_used"));
+    assert!(text.contains(&used), "no {used} in {text}");
+}
+
+#[test]
+fn the_pdf_prints_declared_zero_decimals_as_whole_numbers() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("r");
+    report_pdf(&fixture(CHAPTER), &out);
+    let text = flat(&pdf_text(&out.join("report.pdf")));
+    let analysis = common::json_of(&read(&out.join("analysis.json")));
+    let reference = analysis["responses"][1]["reference"].as_f64().unwrap();
+    assert!(text.contains(&format!("{reference:.0} counts")), "{text}");
+    assert!(!text.contains(&format!("{reference:.1} counts")), "{text}");
+}
+
+#[test]
+fn p_values_below_one_in_a_thousand_print_as_below_0_001_in_the_pdf() {
+    // The example's ANOVA has p = 0.00041 for temp (analysis.json); the Plackett–Burman example
+    // drifts with p ≈ 1e-15.
+    let dir = tempfile::tempdir().unwrap();
+    for (study, out) in [
+        (example(EXAMPLE), dir.path().join("a")),
+        (
+            example("lc-impurities-pb12/study.yaml"),
+            dir.path().join("b"),
+        ),
+    ] {
+        report_pdf(&study, &out);
+        let text = flat(&pdf_text(&out.join("report.pdf")));
+        assert!(text.contains("< 0.001"), "{text}");
+        assert!(!text.contains("p = < 0.001"), "{text}");
+        assert!(
+            !text.contains("0.000 "),
+            "a p-value printed as 0.000: {text}"
+        );
+    }
+}
+
+#[test]
+fn the_pdf_has_no_limit_column_when_one_limit_applies_to_every_row() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("r");
+    report_pdf(&example(EXAMPLE), &out);
+    let text = flat(&pdf_text(&out.join("report.pdf")));
+    assert!(text.contains("Limit for every judged term: 2 %"), "{text}");
+    assert!(!text.contains("Limit Relevant"), "{text}");
+}
+
+#[test]
+fn a_large_full_factorial_reports_with_a_run_order_chart() {
+    // 2^14 = 16,384 runs: the run-order chart adapts (thin markers) instead of failing.
+    let dir = tempfile::tempdir().unwrap();
+    let mut yaml = String::from(
+        "schema: 1
+study: { id: T-14, title: Fourteen factors, method: M-1, analyst: A. B., date: 2026-01-05 }
+factors:
+",
+    );
+    for i in 0..14 {
+        yaml.push_str(&format!(
+            "  - {{ id: f{i}, name: Factor {i}, nominal: 10, delta: 1 }}\n"
+        ));
+    }
+    yaml.push_str(
+        "design: { kind: full-factorial, randomize: false }
+responses:
+  - { id: y, name: Response, unit: mg }
+results: { file: results.csv }
+",
+    );
+    let mut csv = String::from("run,y\n");
+    for run in 1..=16_384u32 {
+        // Invented values: a slow wave over the run number.
+        csv.push_str(&format!(
+            "{run},{:.2}\n",
+            100.0 + f64::from(run % 97) / 100.0
+        ));
+    }
+    std::fs::write(dir.path().join("study.yaml"), yaml).unwrap();
+    std::fs::write(dir.path().join("results.csv"), csv).unwrap();
+    let out = dir.path().join("r");
+    report_no_pdf(&dir.path().join("study.yaml"), &out);
+    let rows = csv_rows(&out.join("run-order-y.csv"));
+    assert_eq!(rows.len(), 16_384);
+    let svg = read(&out.join("run-order-y.svg"));
+    assert!(svg.starts_with("<svg"));
 }

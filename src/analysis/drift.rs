@@ -72,7 +72,11 @@ pub fn drift_check(nominal: &[(f64, f64)]) -> Result<Drift, StatError> {
         .sum();
     let df = n - 2;
     let se = (rss / df as f64 / sxx).sqrt();
-    let (t, p, note) = if se > 0.0 {
+    // A residual at rounding level (three points on one line) is no scatter: the slope then
+    // has no standard error, rather than a t of 10^14.
+    let syy: f64 = nominal.iter().map(|p| (p.1 - ym) * (p.1 - ym)).sum();
+    let exact = rss <= 1e-20 * syy.max(nominal.iter().map(|p| p.1 * p.1).sum::<f64>());
+    let (t, p, note) = if se > 0.0 && !exact {
         let t = slope / se;
         (Some(t), Some(t_sf_two_sided(t, df as f64)?), None)
     } else {

@@ -228,7 +228,15 @@ pub fn half_normal(input: &HalfNormal) -> Result<String, PlotError> {
             top: plot_top,
             bottom,
         };
-        let placed = place_labels(&items, bounds);
+        // Only points with a label take part in the placement: a large design labels its
+        // few largest effects and leaves the crowded rest unlabelled.
+        let labelled: Vec<usize> = (0..labels.len())
+            .filter(|&i| !labels[i].is_empty())
+            .collect();
+        let placed = place_labels(
+            &labelled.iter().map(|&i| items[i]).collect::<Vec<_>>(),
+            bounds,
+        );
         let colors: Vec<RGBColor> = input
             .points
             .iter()
@@ -248,9 +256,10 @@ pub fn half_normal(input: &HalfNormal) -> Result<String, PlotError> {
         for ((c, _), color) in items.iter().zip(&colors) {
             style::draw_marker(&root, *c, style::Marker::Circle, *color, FIGURE)?;
         }
-        for ((label, at), color) in labels.iter().zip(&placed).zip(&colors) {
-            let ts = style::anchored(POINT_LABEL_PX, *color, HPos::Left, VPos::Center);
-            style::draw_text_backed(&root, label, (at.x, at.y), &ts, &line_xs, FIGURE)?;
+        for (&i, at) in labelled.iter().zip(&placed) {
+            let color = colors.get(i).copied().unwrap_or(INK);
+            let ts = style::anchored(POINT_LABEL_PX, color, HPos::Left, VPos::Center);
+            style::draw_text_backed(&root, &labels[i], (at.x, at.y), &ts, &line_xs, FIGURE)?;
         }
         root.present().map_err(style::backend(FIGURE))?;
     }

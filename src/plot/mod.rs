@@ -15,7 +15,7 @@ pub use effect_bars::{Bar, EffectBars, effect_bars};
 pub use half_normal::{HalfNormal, HalfNormalPoint, half_normal};
 pub use interaction::{Interaction, interaction};
 pub use main_effects::{MainEffectPanel, MainEffects, main_effects};
-pub use run_order::{Drift, Run, RunOrder, run_order};
+pub use run_order::{Drift, RawPoint, Run, RunOrder, run_order};
 
 /// A vertical or horizontal reference line with its name, e.g. the critical effect
 /// `E_crit`, Lenth's `ME`/`SME`, or an acceptance limit. Drawn as "name = value".

@@ -374,11 +374,16 @@ pub enum Marker {
     Square,
     /// Filled diamond.
     Diamond,
+    /// Open circle (outline only): a point shown but not used, e.g. an excluded run.
+    HollowCircle,
+    /// Open square (outline only): a second series of the same points, e.g. values as
+    /// measured before a drift correction.
+    HollowSquare,
     /// No marker (a line-only legend entry).
     None,
 }
 
-/// Draws `marker` centred on the pixel `c`.
+/// Draws `marker` centred on the pixel `c` at the standard size.
 pub fn draw_marker(
     root: &Root<'_>,
     c: (i32, i32),
@@ -386,9 +391,27 @@ pub fn draw_marker(
     color: RGBColor,
     figure: &'static str,
 ) -> Result<(), super::PlotError> {
+    draw_marker_sized(root, c, marker, color, 4, figure)
+}
+
+/// Draws `marker` centred on the pixel `c` with radius `r` pixels (thin markers for plots of
+/// thousands of points, which would otherwise merge into a solid band).
+pub fn draw_marker_sized(
+    root: &Root<'_>,
+    c: (i32, i32),
+    marker: Marker,
+    color: RGBColor,
+    r: i32,
+    figure: &'static str,
+) -> Result<(), super::PlotError> {
     let (x, y) = c;
-    let r = 4;
+    let r = r.max(1);
     match marker {
+        Marker::HollowCircle => root.draw(&Circle::new(c, r, color.stroke_width(1))),
+        Marker::HollowSquare => root.draw(&Rectangle::new(
+            [(x - r + 1, y - r + 1), (x + r - 1, y + r - 1)],
+            color.stroke_width(1),
+        )),
         Marker::Circle => root.draw(&Circle::new(c, r, color.filled())),
         Marker::Square => root.draw(&Rectangle::new(
             [(x - r + 1, y - r + 1), (x + r, y + r)],

@@ -426,9 +426,16 @@ fn response_block(
         if c.basis == "significance" && both {
             continue;
         }
-        let text = match precaution_text(study, c) {
-            Some(t) => Some(t.trim_end_matches('.').to_string()),
-            None => range_proposal(study, r, c),
+        let for_information =
+            c.basis != "relevance" && r.verdict.outcome != Outcome::StatisticalOnly;
+        let text = match (precaution_text(study, c), &c.levels) {
+            (Some(_), Some([a, b])) if for_information => Some(format!(
+                "{} shifts {} between {a} and {b} by a statistically significant amount within the practical limit",
+                factor_name(study, &c.factor),
+                r.name
+            )),
+            (Some(t), _) => Some(t.trim_end_matches('.').to_string()),
+            (None, _) => range_proposal(study, r, c),
         };
         let Some(text) = text else { continue };
         if c.basis == "relevance" {
@@ -487,11 +494,24 @@ fn response_block(
             (None, None) => String::new(),
         };
         out.push(format!(
-            "With the routine variation of {} and the run-to-run scatter of this study, a routine run falls {limit} with a probability of {} (Monte Carlo, {} draws, standard error {}).",
+            "With the routine variation of {} and the run-to-run scatter of this study, {}",
             and_list(&k.factors.iter().map(|f| factor_name(study, &f.factor)).collect::<Vec<_>>()),
-            probability_text(k.probability),
-            k.draws,
-            probability_text(k.mc_se),
+            if k.probability > 0.0 {
+                format!(
+                    "a routine run falls {limit} with a probability of {} (Monte Carlo, {} draws, standard error {}).",
+                    probability_text(k.probability),
+                    thousands(k.draws),
+                    probability_text(k.mc_se),
+                )
+            } else {
+                // No draw outside: the 95 % upper bound is 3/M ("rule of three", Hanley &
+                // Lippman-Hand, JAMA 249 (1983) 1743–1745, from memory).
+                format!(
+                    "no routine run of {} Monte Carlo draws fell {limit}: the probability is below {} (95 % upper bound).",
+                    thousands(k.draws),
+                    probability_text(3.0 / k.draws as f64),
+                )
+            }
         ));
     }
     if let Some(u) = &r.uncertainty {
@@ -529,12 +549,25 @@ fn capitalise(text: &str) -> String {
     }
 }
 
-/// A probability as a percentage with two significant figures (at least 0.01 %).
+/// A count with thousands separated by commas (100,000).
+fn thousands(n: usize) -> String {
+    let digits = n.to_string();
+    let mut out = String::new();
+    for (i, c) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i) % 3 == 0 {
+            out.push(',');
+        }
+        out.push(c);
+    }
+    out
+}
+
+/// A probability as a percentage with two significant figures (at least 0.001 %).
 fn probability_text(p: f64) -> String {
     if p <= 0.0 {
         "0 %".into()
-    } else if p < 1e-4 {
-        "< 0.01 %".into()
+    } else if p < 1e-5 {
+        "< 0.001 %".into()
     } else {
         let pct = 100.0 * p;
         let d = (1 - pct.log10().floor() as i32).clamp(0, 3) as u32;
@@ -815,9 +848,9 @@ pub fn note_text(study: &Study, response: &ResponseAnalysis, note: &Note) -> Str
             }
         ),
         Note::DriftNotCorrected { slope, p } => format!(
-            "The nominal runs drift ({}{unit} per run in the run order, p = {}) and no correction was applied: the drift inflates the error estimate and may bias effects that follow the run order.",
+            "The nominal runs drift ({}{unit} per run in the run order, p {}) and no correction was applied: the drift inflates the error estimate and may bias effects that follow the run order.",
             fixed(*slope, d + 1),
-            p_text(*p)
+            p_relation(*p)
         ),
         Note::PercentUndefined { reference_kind, .. } => format!(
             "Percent effects are not defined: the {} is zero.",

@@ -8,53 +8,172 @@
 
 use crate::analysis::quantile::half_normal_scores;
 use crate::analysis::{Effect, LimitSummary, ResponseAnalysis};
-use crate::design::PlannedRun;
 use crate::pipeline::Evaluated;
 use crate::plot::{self, PlotError, RefLine};
 use crate::study::{Factor, LimitUnit};
 
 use super::context::setting_of;
-use super::format::{fixed, setting};
+use super::format::{Numbers, fixed, setting};
 
 /// One figure of the chapter.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Figure {
     /// Id of the response the figure belongs to.
     pub response: String,
-    /// What the figure is: `halfnormal`, `effects`, `main-effects`, `interaction`, `run-order`.
+    /// What the figure is: `halfnormal`, `effect-bars`, `main-effects`, `interaction`,
+    /// `run-order`.
     pub kind: &'static str,
     /// File name in the report folder, e.g. `halfnormal-assay.svg`.
     pub file: String,
     /// The SVG document.
     pub svg: String,
+    /// The plotted values as CSV (named columns, full precision, ASCII), written beside the
+    /// SVG as [`Figure::csv_file`] so a reviewer can trace every point.
+    pub csv: Vec<u8>,
     /// Caption printed under the figure (plain text; the template escapes it).
     pub caption: String,
     /// Alternative text for readers who cannot see the picture (PDF/UA, screen readers).
     pub alt: String,
 }
 
+impl Figure {
+    /// The name of the CSV file beside the SVG: `X.svg` → `X.csv`.
+    pub fn csv_file(&self) -> String {
+        match self.file.strip_suffix(".svg") {
+            Some(stem) => format!("{stem}.csv"),
+            None => format!("{}.csv", self.file),
+        }
+    }
+}
+
+/// A figure the chapter would show but cannot draw meaningfully, with the reason the chapter
+/// prints in its place.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Omitted {
+    /// Id of the response.
+    pub response: String,
+    /// What the figure would have been (as [`Figure::kind`]).
+    pub kind: &'static str,
+    /// One sentence saying which figure and why, e.g. `No half-normal plot: ...`.
+    pub reason: String,
+}
+
+/// The chapter's figures: those drawn and those it explains away.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Figures {
+    /// Drawn figures, in the order the chapter shows them.
+    pub drawn: Vec<Figure>,
+    /// Figures not drawn, each with its reason.
+    pub omitted: Vec<Omitted>,
+}
+
+impl Figures {
+    /// The files to write: each figure's SVG and, beside it, its CSV.
+    pub fn files(&self) -> Vec<(String, Vec<u8>)> {
+        self.drawn
+            .iter()
+            .flat_map(|f| {
+                [
+                    (f.file.clone(), f.svg.clone().into_bytes()),
+                    (f.csv_file(), f.csv.clone()),
+                ]
+            })
+            .collect()
+    }
+}
+
+/// Fewest effects for a half-normal plot. Our rule: 7, the contrasts of the smallest
+/// two-level screening design (8 runs); with fewer points no line of noise effects can be
+/// seen for a real effect to stand off (Daniel 1959 judges the plot by that line).
+pub const MIN_HALF_NORMAL: usize = 7;
+
 /// Every figure of the chapter, response by response, in the order the chapter shows them:
-/// half-normal plot, bar chart of |% effect|, main effects, interactions, run order.
+/// half-normal plot, bar chart of |% effect|, main effects, interactions, run order; and the
+/// figures that cannot be drawn, with the reason.
+///
+/// Every plotted value is one the analysis used: effects from the effects table, means from
+/// the model (intercept ± E/2), run values after exclusion and drift correction.
 ///
 /// Errors: a plot function refused its input (only possible for values no valid study
 /// produces, e.g. a NaN mean).
-pub fn build(evaluated: &Evaluated) -> Result<Vec<Figure>, PlotError> {
-    let mut out = Vec::new();
-    for (r, response) in evaluated.analysis.responses.iter().enumerate() {
-        let means = run_means(evaluated, r);
+pub fn build(evaluated: &Evaluated) -> Result<Figures, PlotError> {
+    let mut out = Figures::default();
+    for response in &evaluated.analysis.responses {
         if !response.effects.is_empty() {
-            out.push(half_normal_figure(response)?);
-            out.push(effect_bars_figure(response)?);
+            if response.effects.len() < MIN_HALF_NORMAL {
+                out.omitted.push(Omitted {
+                    response: response.id.clone(),
+                    kind: "halfnormal",
+                    reason: format!(
+                        "No half-normal plot of the effects on {}: {} effects are fewer than the {MIN_HALF_NORMAL} this chapter requires, too few for the noise effects to form a line that a real effect could stand off.",
+                        response.name,
+                        response.effects.len()
+                    ),
+                });
+            } else {
+                out.drawn.push(half_normal_figure(
+                    response,
+                    Numbers::of(&evaluated.study, response),
+                )?);
+            }
+            out.drawn.push(effect_bars_figure(response)?);
         }
-        if let Some(f) = main_effects_figure(evaluated, response, &means)? {
-            out.push(f);
+        match main_effects_figure(evaluated, response)? {
+            Ok(f) => out.drawn.push(f),
+            Err(reason) => out.omitted.push(Omitted {
+                response: response.id.clone(),
+                kind: "main-effects",
+                reason,
+            }),
         }
-        out.extend(interaction_figures(evaluated, response, &means)?);
-        if let Some(f) = run_order_figure(evaluated, response, &means)? {
-            out.push(f);
+        let (drawn, omitted) = interaction_figures(evaluated, response)?;
+        out.drawn.extend(drawn);
+        out.omitted.extend(omitted);
+        if let Some(f) = run_order_figure(evaluated, response)? {
+            out.drawn.push(f);
         }
     }
     Ok(out)
+}
+
+/// The intercept the model-based means are drawn about: b₀ of the response's one fitted
+/// model (the mean of the two-level runs for an orthogonal design without exclusions).
+pub fn model_intercept(r: &ResponseAnalysis) -> f64 {
+    r.intercept
+}
+
+/// The model's means at the low and high level of a column with effect `e` about intercept
+/// `b0`: b0 − E/2 and b0 + E/2, whose difference is E exactly (Box, Hunter & Hunter 2005,
+/// §5.8: an effect is the difference of the two level means).
+pub fn level_means(b0: f64, e: f64) -> (f64, f64) {
+    (b0 - e / 2.0, b0 + e / 2.0)
+}
+
+/// The model's mean of the cell (a, b) (coded ±1) of a two-factor interaction:
+/// b0 + a·E_A/2 + b·E_B/2 + a·b·E_AB/2, so that the cell means reproduce E_A, E_B and E_AB of
+/// the effects table (Box, Hunter & Hunter 2005, §5.8).
+pub fn cell_mean(b0: f64, e_a: f64, e_b: f64, e_ab: f64, a: i8, b: i8) -> f64 {
+    let (a, b) = (f64::from(a), f64::from(b));
+    b0 + a * e_a / 2.0 + b * e_b / 2.0 + a * b * e_ab / 2.0
+}
+
+/// The effect of exactly the term made of `ids` (any order), if the table has one.
+fn term_effect<'a>(response: &'a ResponseAnalysis, ids: &[&str]) -> Option<&'a Effect> {
+    response.effects.iter().find(|e| {
+        !e.dummy
+            && e.factors.len() == ids.len()
+            && ids.iter().all(|id| e.factors.iter().any(|f| f == id))
+    })
+}
+
+/// Full-precision text of a number for the CSV files (ASCII `-`, shortest exact form).
+fn csv_number(x: f64) -> String {
+    x.to_string()
+}
+
+fn csv_of(header: &[&str], rows: &[Vec<String>]) -> Vec<u8> {
+    let header: Vec<String> = header.iter().map(|h| h.to_string()).collect();
+    super::tables::csv_bytes(&header, rows)
 }
 
 /// The vertical reference lines of the half-normal plot of one response, in the response's
@@ -173,43 +292,6 @@ fn unit_suffix(response: &ResponseAnalysis) -> String {
         .unwrap_or_default()
 }
 
-/// Mean of each run's determinations for response `r`, indexed like `design.runs`
-/// (`None` when the run has no value).
-fn run_means(evaluated: &Evaluated, r: usize) -> Vec<Option<f64>> {
-    evaluated
-        .design
-        .runs
-        .iter()
-        .map(|run| {
-            let vals = evaluated.data.values.get(&run.id)?.get(r)?;
-            if vals.is_empty() {
-                return None;
-            }
-            let m = vals.iter().sum::<f64>() / vals.len() as f64;
-            m.is_finite().then_some(m)
-        })
-        .collect()
-}
-
-fn mean(values: impl Iterator<Item = f64>) -> Option<f64> {
-    let (sum, n) = values.fold((0.0, 0usize), |(s, n), v| (s + v, n + 1));
-    (n > 0).then(|| sum / n as f64)
-}
-
-/// Mean response of the two-level runs for which `keep(coded levels)` holds.
-fn mean_where(
-    runs: &[PlannedRun],
-    means: &[Option<f64>],
-    keep: impl Fn(&[i8]) -> bool,
-) -> Option<f64> {
-    mean(
-        runs.iter()
-            .zip(means)
-            .filter(|(run, _)| !run.nominal && keep(&run.coded))
-            .filter_map(|(_, m)| *m),
-    )
-}
-
 /// A level as a reader sees it in a figure: `33 °C`, `2.9`, `L-0412`.
 fn level_text(factor: &Factor, coded: i8) -> String {
     let text = setting_of(factor, coded);
@@ -222,7 +304,10 @@ fn level_text(factor: &Factor, coded: i8) -> String {
 /// Most effects drawn in one half-normal plot or bar chart.
 pub const MAX_DRAWN: usize = 63;
 
-fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> {
+/// Effects labelled in a half-normal plot of more than [`MAX_DRAWN`] effects (the largest).
+pub const LABELLED_OF_MANY: usize = 10;
+
+fn half_normal_figure(response: &ResponseAnalysis, numbers: Numbers) -> Result<Figure, PlotError> {
     // Daniel (1959): the i-th smallest of m absolute effects is plotted against the
     // half-normal quantile of (i − 0.5)/m; ties keep design order (stable sort).
     let mut effects: Vec<&Effect> = response.effects.iter().collect();
@@ -231,17 +316,55 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
     // Scores come from all m effects; a large design draws only its upper tail, where the real
     // effects stand out, so the labels stay readable.
     let skip = effects.len().saturating_sub(MAX_DRAWN);
+    // A large design labels only its largest effects; the crowded tail stays unlabelled.
+    let unlabelled = if skip > 0 {
+        effects.len().saturating_sub(LABELLED_OF_MANY)
+    } else {
+        0
+    };
     let points = effects
         .iter()
         .zip(scores)
+        .enumerate()
         .skip(skip)
-        .map(|(e, score)| plot::HalfNormalPoint {
-            label: short_label(e),
+        .map(|(i, (e, score))| plot::HalfNormalPoint {
+            label: if i >= unlabelled {
+                short_label(e)
+            } else {
+                String::new()
+            },
             abs_effect: e.effect.abs(),
             score,
         })
         .collect();
     let lines = reference_lines(response);
+    let mut rows: Vec<Vec<String>> = effects
+        .iter()
+        .zip(half_normal_scores(effects.len()))
+        .skip(skip)
+        .map(|(e, score)| {
+            vec![
+                "effect".to_string(),
+                short_label(e),
+                e.label.clone(),
+                csv_number(e.effect.abs()),
+                csv_number(score),
+            ]
+        })
+        .collect();
+    rows.extend(lines.iter().map(|l| {
+        vec![
+            "reference line".to_string(),
+            l.name.clone(),
+            String::new(),
+            csv_number(l.value),
+            String::new(),
+        ]
+    }));
+    let csv = csv_of(
+        &["series", "label", "term", "abs_effect", "half_normal_score"],
+        &rows,
+    );
     let svg = plot::half_normal(&plot::HalfNormal {
         points,
         lines: lines.clone(),
@@ -265,7 +388,7 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
     );
     if response.effects.len() > MAX_DRAWN {
         caption.push_str(&format!(
-            " Only the {MAX_DRAWN} largest are drawn; their scores are those among all {}.",
+            " Only the {MAX_DRAWN} largest are drawn, the {LABELLED_OF_MANY} largest labelled; their scores are those among all {}.",
             response.effects.len()
         ));
     }
@@ -281,7 +404,7 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
             };
             format!(
                 "{what} ({}{})",
-                fixed(l.value, response.decimals + 1),
+                fixed(l.value, numbers.derived_decimals()),
                 unit_suffix(response)
             )
         })
@@ -302,13 +425,13 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
             response.effects.len(),
             response.name,
             short_label(e),
-            fixed(e.effect.abs(), response.decimals + 1),
+            fixed(e.effect.abs(), numbers.derived_decimals()),
             unit_suffix(response),
             lines
                 .first()
                 .map(|l| format!(
                     " A vertical line marks the limit at {}{}.",
-                    fixed(l.value, response.decimals + 1),
+                    fixed(l.value, numbers.derived_decimals()),
                     unit_suffix(response)
                 ))
                 .unwrap_or_default()
@@ -320,6 +443,7 @@ fn half_normal_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
         kind: "halfnormal",
         file: format!("halfnormal-{}.svg", response.id),
         svg,
+        csv,
         caption,
         alt,
     })
@@ -329,6 +453,27 @@ fn effect_bars_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
     let mut largest: Vec<&Effect> = response.effects.iter().collect();
     largest.sort_by(|a, b| pct(b).abs().total_cmp(&pct(a).abs()));
     largest.truncate(MAX_DRAWN);
+    let limit = percent_limit(response);
+    let mut rows: Vec<Vec<String>> = largest
+        .iter()
+        .map(|e| {
+            vec![
+                "effect".to_string(),
+                short_label(e),
+                e.label.clone(),
+                csv_number(pct(e)),
+            ]
+        })
+        .collect();
+    rows.extend(limit.map(|l| {
+        vec![
+            "acceptance limit".to_string(),
+            "limit".to_string(),
+            String::new(),
+            csv_number(l),
+        ]
+    }));
+    let csv = csv_of(&["series", "label", "term", "percent_effect"], &rows);
     let bars = largest
         .into_iter()
         .map(|e| plot::Bar {
@@ -336,7 +481,6 @@ fn effect_bars_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
             value: pct(e),
         })
         .collect();
-    let limit = percent_limit(response);
     let svg = plot::effect_bars(&plot::EffectBars {
         bars,
         limit: limit.map(|value| RefLine {
@@ -380,40 +524,100 @@ fn effect_bars_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
     );
     Ok(Figure {
         response: response.id.clone(),
-        kind: "effects",
-        file: format!("effects-{}.svg", response.id),
+        kind: "effect-bars",
+        file: format!("effect-bars-{}.svg", response.id),
         svg,
+        csv,
         caption,
         alt,
     })
 }
 
+/// Runs left out of the evaluation of `response`, as `run 4` / `runs 4 and 7`, or `None`.
+fn excluded_runs_text(response: &ResponseAnalysis) -> Option<String> {
+    let ids: Vec<String> = response
+        .values
+        .iter()
+        .filter(|v| v.excluded)
+        .map(|v| v.run.clone())
+        .collect();
+    match ids.len() {
+        0 => None,
+        1 => Some(format!("run {}", ids.join(""))),
+        _ => Some(format!(
+            "runs {}",
+            crate::report::conclusion::and_list(&ids)
+        )),
+    }
+}
+
+/// True when the analysis corrected the values of `response` for drift.
+fn drift_corrected(response: &ResponseAnalysis) -> bool {
+    response
+        .drift
+        .as_ref()
+        .is_some_and(|d| d.correction.is_some())
+}
+
+/// What the model-based means rest on, for captions: the exclusions and the drift correction.
+fn basis_text(response: &ResponseAnalysis) -> String {
+    let mut parts = Vec::new();
+    if drift_corrected(response) {
+        parts.push("drift-corrected values".to_string());
+    }
+    if let Some(ex) = excluded_runs_text(response) {
+        parts.push(format!("{ex} excluded"));
+    }
+    if parts.is_empty() {
+        String::new()
+    } else {
+        format!(" ({})", parts.join("; "))
+    }
+}
+
 fn main_effects_figure(
     evaluated: &Evaluated,
     response: &ResponseAnalysis,
-    means: &[Option<f64>],
-) -> Result<Option<Figure>, PlotError> {
-    let runs = &evaluated.design.runs;
+) -> Result<Result<Figure, String>, PlotError> {
+    let numbers = Numbers::of(&evaluated.study, response);
+    let b0 = model_intercept(response);
     let mut panels = Vec::new();
-    for (j, factor) in evaluated.study.factors.iter().enumerate() {
-        let low = mean_where(runs, means, |c| c.get(j) == Some(&-1));
-        let high = mean_where(runs, means, |c| c.get(j) == Some(&1));
-        if let (Some(mean_low), Some(mean_high)) = (low, high) {
-            panels.push(plot::MainEffectPanel {
-                factor: factor.name.clone(),
-                low_label: level_text(factor, -1),
-                high_label: level_text(factor, 1),
-                mean_low,
-                mean_high,
-            });
-        }
+    let mut rows = Vec::new();
+    for factor in &evaluated.study.factors {
+        let Some(e) = term_effect(response, &[factor.id.as_str()]) else {
+            continue;
+        };
+        let (mean_low, mean_high) = level_means(b0, e.effect);
+        rows.push(vec![
+            factor.id.clone(),
+            setting_of(factor, -1),
+            setting_of(factor, 1),
+            csv_number(mean_low),
+            csv_number(mean_high),
+            csv_number(e.effect),
+            csv_number(b0),
+        ]);
+        panels.push(plot::MainEffectPanel {
+            factor: factor.name.clone(),
+            low_label: level_text(factor, -1),
+            high_label: level_text(factor, 1),
+            mean_low,
+            mean_high,
+        });
     }
-    let Some(grand_mean) = mean_where(runs, means, |_| true) else {
-        return Ok(None);
-    };
     if panels.is_empty() {
-        return Ok(None);
+        return Ok(Err(format!(
+            "No main-effects plot of {}: the effects table has no main effect to draw.",
+            response.name
+        )));
     }
+    if !b0.is_finite() {
+        return Ok(Err(format!(
+            "No main-effects plot of {}: the model has no finite intercept.",
+            response.name
+        )));
+    }
+    let d = numbers.derived_decimals();
     let alt = format!(
         "Main-effects plot of {}: {}.",
         response.name,
@@ -422,9 +626,9 @@ fn main_effects_figure(
             .map(|p| format!(
                 "{} {} at {} and {} at {}",
                 p.factor,
-                fixed(p.mean_low, response.decimals + 1),
+                fixed(p.mean_low, d),
                 p.low_label,
-                fixed(p.mean_high, response.decimals + 1),
+                fixed(p.mean_high, d),
                 p.high_label
             ))
             .collect::<Vec<_>>()
@@ -432,155 +636,280 @@ fn main_effects_figure(
     );
     let svg = plot::main_effects(&plot::MainEffects {
         panels,
-        grand_mean,
-        grand_mean_label: "mean of the two-level runs".to_string(),
+        grand_mean: b0,
+        grand_mean_label: "intercept".to_string(),
         y_title: short_title(response),
     })?;
-    Ok(Some(Figure {
+    let csv = csv_of(
+        &[
+            "factor",
+            "low_level",
+            "high_level",
+            "mean_low",
+            "mean_high",
+            "effect",
+            "intercept",
+        ],
+        &rows,
+    );
+    Ok(Ok(Figure {
         response: response.id.clone(),
         kind: "main-effects",
         file: format!("main-effects-{}.svg", response.id),
         svg,
+        csv,
         caption: format!(
-            "Mean {} at the low and the high level of each factor (two-level runs only); the difference is the main effect. The dashed line is the mean of the two-level runs.",
-            titled(response)
+            "Model means of {} at the low and the high level of each factor{}: intercept − E/2 and intercept + E/2, so the two points of a factor differ by exactly its main effect E in the effects table. The dashed line is the intercept, {}{}.",
+            titled(response),
+            basis_text(response),
+            numbers.derived(b0),
+            unit_suffix(response)
         ),
         alt,
     }))
 }
 
+/// The factor indices of a term mask, lowest first.
+fn mask_factors(mask: u64, n: usize) -> Vec<usize> {
+    (0..n.min(64)).filter(|i| mask >> i & 1 == 1).collect()
+}
+
+/// The term mask of a list of factor ids.
+fn ids_mask(study: &crate::study::Study, ids: &[String]) -> u64 {
+    ids.iter()
+        .filter_map(|id| study.factors.iter().position(|f| &f.id == id))
+        .fold(0u64, |m, i| m | 1u64 << i)
+}
+
 /// Two-factor interactions worth a picture: estimable (no other term of the orders shown
 /// shares the column, so the picture is of this interaction alone) and relevant or
-/// significant, or listed under `figures.interactions` in the study (then an alias chain, if
-/// any, is named on the figure).
+/// significant, or listed under `figures.interactions` in the study. A listed interaction
+/// whose column is shared (aliased) or not estimated is not drawn; the chapter says why and
+/// names the chain, since four cell means would show the whole chain, not this term.
 fn interaction_figures(
     evaluated: &Evaluated,
     response: &ResponseAnalysis,
-    means: &[Option<f64>],
-) -> Result<Vec<Figure>, PlotError> {
+) -> Result<(Vec<Figure>, Vec<Omitted>), PlotError> {
     let study = &evaluated.study;
-    let design = &evaluated.design;
-    let mut out = Vec::new();
+    let mut drawn = Vec::new();
+    let mut omitted = Vec::new();
+    let mut wanted: Vec<&Effect> = Vec::new();
     for e in &response.effects {
-        let mask = e
-            .factors
-            .iter()
-            .filter_map(|id| study.factors.iter().position(|f| &f.id == id))
-            .fold(0u64, |m, i| m | 1u64 << i);
-        let listed = study.figure_interactions.contains(&mask)
-            || e.aliases.iter().any(|chain| {
-                let m = chain
-                    .iter()
-                    .filter_map(|id| study.factors.iter().position(|f| &f.id == id))
-                    .fold(0u64, |m, i| m | 1u64 << i);
-                study.figure_interactions.contains(&m)
-            });
         let notable = e.relevant == Some(true) || e.significant == Some(true);
-        if e.order != 2 || e.dummy || !(listed || (e.estimable && notable)) {
-            continue;
+        if e.order == 2 && !e.dummy && e.estimable && notable {
+            wanted.push(e);
         }
-        let index = |id: &str| study.factors.iter().position(|f| f.id == id);
-        let (Some(ia), Some(ib)) = (
-            e.factors.first().and_then(|a| index(a)),
-            e.factors.get(1).and_then(|b| index(b)),
-        ) else {
-            continue;
-        };
-        let (Some(fa), Some(fb)) = (study.factors.get(ia), study.factors.get(ib)) else {
-            continue;
-        };
-        let mut cells = [[0.0; 2]; 2];
-        let mut complete = true;
-        for (bi, bl) in [-1i8, 1].iter().enumerate() {
-            for (ai, al) in [-1i8, 1].iter().enumerate() {
-                match mean_where(&design.runs, means, |c| {
-                    c.get(ia) == Some(al) && c.get(ib) == Some(bl)
-                }) {
-                    Some(m) => cells[bi][ai] = m,
-                    None => complete = false,
+    }
+    for &mask in &study.figure_interactions {
+        let ids: Vec<&Factor> = mask_factors(mask, study.factors.len())
+            .into_iter()
+            .filter_map(|i| study.factors.get(i))
+            .collect();
+        let name = ids
+            .iter()
+            .map(|f| f.id.as_str())
+            .collect::<Vec<_>>()
+            .join("×");
+        let own = response
+            .effects
+            .iter()
+            .find(|e| e.order == 2 && !e.dummy && ids_mask(study, &e.factors) == mask);
+        let sharing = response
+            .effects
+            .iter()
+            .find(|e| e.aliases.iter().any(|chain| ids_mask(study, chain) == mask));
+        match (own, sharing) {
+            (Some(e), _) if e.estimable => {
+                if !wanted.iter().any(|w| std::ptr::eq(*w, e)) {
+                    wanted.push(e);
                 }
             }
+            (Some(e), _) | (None, Some(e)) => omitted.push(Omitted {
+                response: response.id.clone(),
+                kind: "interaction",
+                reason: format!(
+                    "No interaction plot of {name} on {}, although the study asks for one: its column is shared with other terms (alias chain {}), so cell means would show the sum of the whole chain, not {name} alone.",
+                    response.name, e.label
+                ),
+            }),
+            (None, None) => omitted.push(Omitted {
+                response: response.id.clone(),
+                kind: "interaction",
+                reason: format!(
+                    "No interaction plot of {name} on {}, although the study asks for one: the analysis estimates no column for this interaction.",
+                    response.name
+                ),
+            }),
         }
-        if !complete {
-            continue;
-        }
-        let note = if !e.estimable {
-            format!("aliased: this column estimates {}", e.label)
-        } else if design.complete_factorial {
-            "full factorial: no other term shares this column".to_string()
-        } else {
-            format!(
-                "no other term up to order {} shares this column",
-                design.structure.alias_order
-            )
-        };
-        let svg = plot::interaction(&plot::Interaction {
-            factor_a: fa.name.clone(),
-            a_levels: [level_text(fa, -1), level_text(fa, 1)],
-            factor_b: fb.name.clone(),
-            b_levels: [level_text(fb, -1), level_text(fb, 1)],
-            means: cells,
-            y_title: titled(response),
-            note: Some(note.clone()),
-        })?;
-        let d = response.decimals + 1;
-        let alt = format!(
-            "Interaction plot of {} and {} on {}: at {} the means are {} and {} for {} and {}; at {} they are {} and {}.",
-            fa.name,
-            fb.name,
-            response.name,
-            level_text(fb, -1),
-            fixed(cells[0][0], d),
-            fixed(cells[0][1], d),
-            level_text(fa, -1),
-            level_text(fa, 1),
-            level_text(fb, 1),
-            fixed(cells[1][0], d),
-            fixed(cells[1][1], d),
-        );
-        out.push(Figure {
-            response: response.id.clone(),
-            kind: "interaction",
-        file: format!("interaction-{}-{}-{}.svg", response.id, fa.id, fb.id),
-            svg,
-            caption: format!(
-                "Interaction {}×{} on {}: mean response at the four combinations of the two factors' levels ({}; interaction effect {}{}, {} %). Non-parallel lines show the interaction.",
-                fa.id,
-                fb.id,
-                response.name,
-                note,
-                fixed(e.effect, d),
-                unit_suffix(response),
-                fixed(pct(e), 2)
-            ),
-            alt,
-        });
     }
-    Ok(out)
+    // Design order of the effects table, whatever order the study listed them in.
+    wanted.sort_by_key(|w| {
+        response
+            .effects
+            .iter()
+            .position(|e| std::ptr::eq(e, *w))
+            .unwrap_or(usize::MAX)
+    });
+    for e in wanted {
+        match interaction_figure(evaluated, response, e)? {
+            Ok(f) => drawn.push(f),
+            Err(reason) => omitted.push(Omitted {
+                response: response.id.clone(),
+                kind: "interaction",
+                reason,
+            }),
+        }
+    }
+    Ok((drawn, omitted))
 }
+
+fn interaction_figure(
+    evaluated: &Evaluated,
+    response: &ResponseAnalysis,
+    e: &Effect,
+) -> Result<Result<Figure, String>, PlotError> {
+    let study = &evaluated.study;
+    let design = &evaluated.design;
+    let numbers = Numbers::of(study, response);
+    let find = |id: &str| study.factors.iter().find(|f| f.id == id);
+    let (Some(fa), Some(fb)) = (
+        e.factors.first().and_then(|a| find(a)),
+        e.factors.get(1).and_then(|b| find(b)),
+    ) else {
+        return Ok(Err(format!(
+            "No interaction plot of {} on {}: it does not name two factors of the study.",
+            e.label, response.name
+        )));
+    };
+    let (Some(ea), Some(eb)) = (
+        term_effect(response, &[fa.id.as_str()]),
+        term_effect(response, &[fb.id.as_str()]),
+    ) else {
+        return Ok(Err(format!(
+            "No interaction plot of {}×{} on {}: the effects table lacks a main effect of {} or {}, which the cell means need.",
+            fa.id, fb.id, response.name, fa.id, fb.id
+        )));
+    };
+    let b0 = model_intercept(response);
+    let mut cells = [[0.0; 2]; 2];
+    let mut rows = Vec::new();
+    for (bi, bl) in [-1i8, 1].into_iter().enumerate() {
+        for (ai, al) in [-1i8, 1].into_iter().enumerate() {
+            let m = cell_mean(b0, ea.effect, eb.effect, e.effect, al, bl);
+            cells[bi][ai] = m;
+            rows.push(vec![
+                setting_of(fa, al),
+                setting_of(fb, bl),
+                al.to_string(),
+                bl.to_string(),
+                csv_number(m),
+            ]);
+        }
+    }
+    let header_a = format!("{}_level", fa.id);
+    let header_b = format!("{}_level", fb.id);
+    let coded_a = format!("{}_coded", fa.id);
+    let coded_b = format!("{}_coded", fb.id);
+    let csv = csv_of(&[&header_a, &header_b, &coded_a, &coded_b, "mean"], &rows);
+    let note = if design.complete_factorial {
+        "full factorial: no other term shares this column".to_string()
+    } else {
+        format!(
+            "no other term up to order {} shares this column",
+            design.structure.alias_order
+        )
+    };
+    let svg = plot::interaction(&plot::Interaction {
+        factor_a: fa.name.clone(),
+        a_levels: [level_text(fa, -1), level_text(fa, 1)],
+        factor_b: fb.name.clone(),
+        b_levels: [level_text(fb, -1), level_text(fb, 1)],
+        means: cells,
+        y_title: titled(response),
+        note: Some(note.clone()),
+    })?;
+    let d = numbers.derived_decimals();
+    let alt = format!(
+        "Interaction plot of {} and {} on {}: at {} the means are {} and {} for {} and {}; at {} they are {} and {}.",
+        fa.name,
+        fb.name,
+        response.name,
+        level_text(fb, -1),
+        fixed(cells[0][0], d),
+        fixed(cells[0][1], d),
+        level_text(fa, -1),
+        level_text(fa, 1),
+        level_text(fb, 1),
+        fixed(cells[1][0], d),
+        fixed(cells[1][1], d),
+    );
+    Ok(Ok(Figure {
+        response: response.id.clone(),
+        kind: "interaction",
+        file: format!("interaction-{}-{}-{}.svg", response.id, fa.id, fb.id),
+        svg,
+        csv,
+        caption: format!(
+            "Interaction {}×{} on {}: model means at the four combinations of the two factors' levels{}, intercept ± E({})/2 ± E({})/2 ± E({}×{})/2, so the plot reproduces the tabulated effects ({}; interaction effect {}{}, {} %). Non-parallel lines show the interaction.",
+            fa.id,
+            fb.id,
+            response.name,
+            basis_text(response),
+            fa.id,
+            fb.id,
+            fa.id,
+            fb.id,
+            note,
+            numbers.derived(e.effect),
+            unit_suffix(response),
+            fixed(pct(e), crate::report::conclusion::PERCENT_DECIMALS)
+        ),
+        alt,
+    }))
+}
+
+/// Runs above which the run-order chart carries no per-run detail in its caption.
+const MANY_RUNS: usize = 200;
 
 fn run_order_figure(
     evaluated: &Evaluated,
     response: &ResponseAnalysis,
-    means: &[Option<f64>],
 ) -> Result<Option<Figure>, PlotError> {
-    let runs: Vec<plot::Run> = evaluated
-        .design
-        .runs
+    let corrected = drift_corrected(response);
+    let values: Vec<&crate::analysis::RunValue> = response
+        .values
         .iter()
-        .zip(means)
-        .filter_map(|(run, m)| {
+        .filter(|v| v.value.is_finite() && v.raw.is_finite())
+        .collect();
+    let runs: Vec<plot::Run> = values
+        .iter()
+        .filter_map(|v| {
             Some(plot::Run {
-                order: u32::try_from(run.order).ok()?,
-                response: (*m)?,
-                nominal: run.nominal,
+                order: u32::try_from(v.order).ok()?,
+                response: v.value,
+                nominal: v.nominal,
+                excluded: v.excluded,
             })
         })
         .collect();
     if runs.is_empty() {
         return Ok(None);
     }
-    let nominal = runs.iter().filter(|r| r.nominal).count();
+    let raw: Vec<plot::RawPoint> = if corrected {
+        values
+            .iter()
+            .filter_map(|v| {
+                Some(plot::RawPoint {
+                    order: u32::try_from(v.order).ok()?,
+                    response: v.raw,
+                })
+            })
+            .collect()
+    } else {
+        Vec::new()
+    };
+    let nominal = values.iter().filter(|v| v.nominal).count();
+    let excluded = values.iter().filter(|v| v.excluded).count();
     let drift = response
         .drift
         .as_ref()
@@ -614,8 +943,30 @@ fn run_order_figure(
         })
         .flatten()
         .collect();
+    let mut header = vec!["run", "order", "nominal", "excluded", "value_used"];
+    if corrected {
+        header.push("value_as_measured");
+    }
+    let rows: Vec<Vec<String>> = values
+        .iter()
+        .map(|v| {
+            let mut row = vec![
+                v.run.clone(),
+                v.order.to_string(),
+                v.nominal.to_string(),
+                v.excluded.to_string(),
+                csv_number(v.value),
+            ];
+            if corrected {
+                row.push(csv_number(v.raw));
+            }
+            row
+        })
+        .collect();
+    let csv = csv_of(&header, &rows);
     let svg = plot::run_order(&plot::RunOrder {
         runs,
+        raw,
         drift,
         limits,
         x_title: "run order".to_string(),
@@ -623,29 +974,64 @@ fn run_order_figure(
         run_label: "two-level run".to_string(),
         nominal_label: "nominal run".to_string(),
         drift_label: "drift (least squares)".to_string(),
+        excluded_label: "excluded run".to_string(),
+        raw_label: "as measured".to_string(),
     })?;
-    let caption = format!(
-        "{} of every run in the order performed{}.",
+    let mut caption = format!(
+        "{} of every run in the order performed{}",
         titled(response),
-        if nominal > 0 {
-            format!(
-                "; the {nominal} nominal runs are marked as diamonds and joined, so a trend over time shows"
-            )
+        if corrected {
+            ", after drift correction (filled markers, the values the effects were computed from) and as measured before the correction (open grey squares; the dashed drift line is fitted to the nominal runs as measured)"
         } else {
-            String::new()
+            ""
         }
     );
+    if nominal > 0 {
+        caption.push_str(&format!(
+            "; the {nominal} nominal runs are marked as diamonds and joined, so a trend over time shows"
+        ));
+    }
+    if let Some(ex) = excluded_runs_text(response) {
+        caption.push_str(&format!(
+            "; {ex}, excluded from the evaluation, {} drawn as {}",
+            if excluded == 1 { "is" } else { "are" },
+            if excluded == 1 {
+                "an open red circle"
+            } else {
+                "open red circles"
+            }
+        ));
+    }
+    let points = values.len() * if corrected { 2 } else { 1 };
+    if points > plot::run_order::DENSE_RUNS {
+        caption.push_str(&format!(
+            "; with {} runs, the two-level runs are drawn as one vertical stroke per pixel column, from the lowest to the highest value falling in it",
+            values.len()
+        ));
+    } else if values.len() > MANY_RUNS {
+        caption.push_str(&format!(
+            "; with {} runs the markers are drawn small",
+            values.len()
+        ));
+    }
+    caption.push('.');
     Ok(Some(Figure {
         response: response.id.clone(),
         kind: "run-order",
         file: format!("run-order-{}.svg", response.id),
         svg,
+        csv,
         caption,
         alt: format!(
-            "Run-order chart of {}: {} runs plotted in the order performed, {} of them nominal runs.",
+            "Run-order chart of {}: {} runs plotted in the order performed, {} of them nominal runs{}.",
             response.name,
-            evaluated.design.runs.len(),
-            nominal
+            values.len(),
+            nominal,
+            if excluded > 0 {
+                format!(" and {excluded} excluded")
+            } else {
+                String::new()
+            }
         ),
     }))
 }

@@ -9,7 +9,9 @@ use crate::analysis::decision::{Distribution, WorseLevel};
 use crate::study::Study;
 
 use super::conclusion::significance_text;
-use super::format::{fixed, setting};
+use super::format::{
+    Numbers, RATE_DIGITS, SIGNIFICANT, UNCERTAINTY_DIGITS, fixed, p_cell, p_clause, setting, sig,
+};
 
 /// The statistical blocks of one response.
 #[derive(Debug, Default, Serialize)]
@@ -46,14 +48,6 @@ pub struct JudgingText {
     pub notes: Vec<String>,
 }
 
-fn p_text(p: Option<f64>) -> String {
-    match p {
-        Some(p) if p < 0.001 => "< 0.001".to_string(),
-        Some(p) => fixed(p, 3),
-        None => "–".to_string(),
-    }
-}
-
 fn factor_name(study: &Study, id: &str) -> String {
     study
         .factors
@@ -72,18 +66,21 @@ fn unit_of(study: &Study, id: &str) -> String {
         .unwrap_or_default()
 }
 
-/// Significant digits for derived quantities that have no natural decimals.
-fn sig(x: f64, digits: i32) -> String {
-    if x == 0.0 || !x.is_finite() {
-        return fixed(x, 0);
-    }
-    let d = (digits - 1 - x.abs().log10().floor() as i32).clamp(0, 10) as u32;
-    fixed(x, d)
+/// A proposed factor setting: one decimal more than the factor's levels need (the chapter's
+/// number rule), so 32.24 °C prints as 32.2 °C beside levels 33 and 37 °C.
+pub fn range_setting(study: &Study, id: &str, x: f64) -> String {
+    let decimals = study
+        .factors
+        .iter()
+        .find(|f| f.id == id)
+        .map_or(2, |f| super::context::factor_decimals(f) + 1);
+    fixed(x, decimals)
 }
 
 /// Builds the statistical blocks of a response.
 pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
-    let d = r.decimals + 1;
+    let numbers = Numbers::of(study, r);
+    let d = numbers.derived_decimals();
     let unit = r
         .unit
         .as_deref()
@@ -152,15 +149,18 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         let row = |x: &crate::analysis::anova::AnovaRow| {
             [
                 x.source.clone(),
-                sig(x.ss, 4),
+                sig(x.ss, SIGNIFICANT),
                 x.df.to_string(),
-                x.ms.map_or_else(|| "–".into(), |v| sig(v, 4)),
-                x.f.map_or_else(|| "–".into(), |v| sig(v, 4)),
-                p_text(x.p),
+                x.ms.map_or_else(|| "–".into(), |v| sig(v, SIGNIFICANT)),
+                x.f.map_or_else(|| "–".into(), |v| sig(v, SIGNIFICANT)),
+                p_cell(x.p),
             ]
         };
         for t in &a.terms {
             out.anova.push(row(t));
+        }
+        if let Some(cv) = &a.curvature {
+            out.anova.push(row(cv));
         }
         if a.lack_of_fit.df > 0 {
             out.anova.push(row(&a.lack_of_fit));
@@ -172,30 +172,31 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
     }
     if let Some(c) = &r.curvature {
         out.curvature = Some(format!(
-            "Curvature: mean of the two-level runs minus mean of the {} nominal runs = {}{unit}, SE = {}, t = {}, df = {}, p = {} (pure error from {}).",
+            "Curvature: the model's prediction at the nominal setting minus the mean of the {} nominal runs = {}{unit}, SE = {}{unit}, t = {}, df = {}, {} (error from {}).",
             c.n_centre,
             fixed(c.difference, d),
-            fixed(c.se, d),
-            c.t.map_or_else(|| "–".into(), |t| fixed(t, 2)),
+            sig(c.se, SIGNIFICANT),
+            c.t.map_or_else(|| "–".into(), |t| sig(t, SIGNIFICANT)),
             setting(c.df),
-            p_text(c.p),
-            if c.s_from_centre_points {
-                "the nominal runs"
-            } else {
-                "the replicated runs"
+            p_clause(c.p),
+            match (r.error.df_replicates > 0, r.error.df_nominal > 0) {
+                (true, true) => "the replicated runs and the nominal runs",
+                (true, false) => "the replicated runs",
+                _ if r.error.nominal_about_drift => "the nominal runs about their drift line",
+                _ => "the nominal runs",
             }
         ));
     }
     if let Some(dr) = &r.drift {
         out.drift = Some(match (&dr.check, &dr.note) {
             (Some(c), _) => format!(
-                "Drift: the {} nominal runs change by {}{unit} per run in the run order (SE {}, t = {}, df = {}, p = {}){}.",
+                "Drift: the {} nominal runs change by {}{unit} per run in the run order (SE {}{unit} per run, t = {}, df = {}, {}){}.",
                 c.n,
-                fixed(c.slope, d + 1),
-                fixed(c.se_slope, d + 1),
-                c.t.map_or_else(|| "–".into(), |t| fixed(t, 2)),
+                sig(c.slope, RATE_DIGITS),
+                sig(c.se_slope, RATE_DIGITS),
+                c.t.map_or_else(|| "–".into(), |t| sig(t, SIGNIFICANT)),
                 c.df,
-                p_text(c.p),
+                p_clause(c.p),
                 match dr.correction {
                     Some(crate::analysis::drift::CorrectionMode::Additive) => "; responses were corrected additively by interpolating between neighbouring nominal runs",
                     Some(crate::analysis::drift::CorrectionMode::Relative) => "; responses were corrected relatively by interpolating between neighbouring nominal runs",
@@ -214,7 +215,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
             w.basis,
             fixed(w.prediction.mean, d),
             if lower { "−" } else { "+" },
-            fixed(w.prediction.predicted, r.decimals),
+            numbers.measured(w.prediction.predicted),
             match (w.min, w.max, w.meets) {
                 (Some(m), _, Some(true)) =>
                     format!(", which meets the required minimum {}", setting(m)),
@@ -231,7 +232,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
                 _ => String::new(),
             },
             if lower { "≥" } else { "≤" },
-            fixed(w.proposed_limit, r.decimals),
+            numbers.measured(w.proposed_limit),
         ));
         for f in &w.prediction.factors {
             out.worst_rows.push([
@@ -258,7 +259,11 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
                         "statistical criterion".into()
                     },
                     match (c.low, c.high) {
-                        (Some(lo), Some(hi)) => format!("{} to {}{u}", sig(lo, 4), sig(hi, 4)),
+                        (Some(lo), Some(hi)) => format!(
+                            "{} to {}{u}",
+                            range_setting(study, &c.factor, lo),
+                            range_setting(study, &c.factor, hi)
+                        ),
                         _ => "–".into(),
                     },
                     format!(
@@ -281,12 +286,12 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
                     Distribution::Triangular => "triangular (a/√6)".into(),
                     Distribution::Normal95 => "normal, 95 % (a/1.96)".into(),
                 },
-                format!("{}{fu}", sig(row.contribution.u_x, 3)),
-                sig(row.contribution.c, 3),
-                format!("{}{unit}", sig(row.contribution.u_y, 3)),
+                format!("{}{fu}", sig(row.contribution.u_x, UNCERTAINTY_DIGITS)),
+                sig(row.contribution.c, SIGNIFICANT),
+                format!("{}{unit}", sig(row.contribution.u_y, UNCERTAINTY_DIGITS)),
             ]);
         }
-        out.combined = Some(format!("{}{unit}", sig(u.combined, 3)));
+        out.combined = Some(format!("{}{unit}", sig(u.combined, UNCERTAINTY_DIGITS)));
     }
     out
 }

@@ -105,7 +105,8 @@ pub fn render_files(
         ("report.typ".to_string(), report.into_bytes()),
         ("section.typ".to_string(), section.into_bytes()),
     ];
-    files.extend(figures.into_iter().map(|f| (f.file, f.svg.into_bytes())));
+    // Each figure's SVG and, beside it, the CSV of its plotted values.
+    files.extend(figures.files());
     let json = serde_json::to_string_pretty(&evaluated.analysis)
         .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
     files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));

@@ -1,10 +1,11 @@
-//! The computed tables as CSV files (full precision), so the numbers can be re-checked outside
-//! the PDF and diffed in git.
+//! The computed tables as CSV files (full precision, ASCII `-`), so the numbers can be
+//! re-checked outside the PDF and diffed in git.
 
 use crate::pipeline::Evaluated;
 use crate::study::{Levels, Setting};
 
-fn csv_bytes(header: &[String], rows: &[Vec<String>]) -> Vec<u8> {
+/// The one CSV writer of the report: `\n` line ends, quoting where needed.
+pub(crate) fn csv_bytes(header: &[String], rows: &[Vec<String>]) -> Vec<u8> {
     let mut w = csv::WriterBuilder::new()
         .terminator(csv::Terminator::Any(b'\n'))
         .from_writer(Vec::new());
@@ -59,7 +60,29 @@ pub fn csv_files(evaluated: &Evaluated) -> Vec<(String, Vec<u8>)> {
         "nominal".to_string(),
     ];
     header.extend(study.factors.iter().map(|f| f.id.clone()));
-    header.extend(study.responses.iter().map(|r| r.id.clone()));
+    // Per response: the determinations as measured, then (where they differ) the value the
+    // evaluation used; last, whether the run was excluded and why.
+    let used: Vec<bool> = (0..study.responses.len())
+        .map(|r| crate::report::context::has_used_values(evaluated, r))
+        .collect();
+    for (r, spec) in study.responses.iter().enumerate() {
+        header.push(spec.id.clone());
+        if used.get(r).copied().unwrap_or(false) {
+            header.push(format!("{}_used", spec.id));
+        }
+    }
+    header.push("excluded".to_string());
+    header.push("exclusion_reason".to_string());
+    let lookups: Vec<std::collections::HashMap<&str, &crate::analysis::RunValue>> = analysis
+        .responses
+        .iter()
+        .map(|a| a.values.iter().map(|v| (v.run.as_str(), v)).collect())
+        .collect();
+    let reasons: std::collections::HashMap<&str, &str> = study
+        .excluded
+        .iter()
+        .map(|e| (e.run.0.as_str(), e.reason.as_str()))
+        .collect();
     let rows: Vec<Vec<String>> =
         design
             .runs_in_order()
@@ -84,7 +107,20 @@ pub fn csv_files(evaluated: &Evaluated) -> Vec<(String, Vec<u8>)> {
                         .map(|v| v.iter().map(f64::to_string).collect::<Vec<_>>().join(";"))
                         .unwrap_or_default();
                     row.push(vals);
+                    if used.get(r).copied().unwrap_or(false) {
+                        row.push(
+                            lookups
+                                .get(r)
+                                .and_then(|m| m.get(run.id.0.as_str()))
+                                .filter(|v| !v.excluded)
+                                .map(|v| v.value.to_string())
+                                .unwrap_or_default(),
+                        );
+                    }
                 }
+                let reason = reasons.get(run.id.0.as_str()).copied();
+                row.push(reason.is_some().to_string());
+                row.push(reason.unwrap_or_default().to_string());
                 row
             })
             .collect();
