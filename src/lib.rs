@@ -15,6 +15,7 @@ pub mod analysis;
 pub mod batch;
 pub mod design;
 pub mod diff;
+pub mod output;
 pub mod pipeline;
 pub mod plot;
 pub mod report;

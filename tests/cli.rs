@@ -124,6 +124,7 @@ fn report_without_pdf_writes_the_documented_files_and_nothing_else() {
         .collect();
     names.sort();
     let mut expected: Vec<String> = [
+        ".plateau-output",
         "analysis.json",
         "effects-assay.csv",
         "effects-resolution.csv",

@@ -286,3 +286,276 @@ fn a_large_full_factorial_reports_with_the_largest_effects_drawn() {
         "caption names the cut"
     );
 }
+
+/// A stub typesetter: answers `--version` as typst 0.15.1, then runs `body` for a compile
+/// (`$out` is the PDF path typst was asked to write).
+fn stub_typst(dir: &Path, name: &str, body: &str) -> std::path::PathBuf {
+    let stub = dir.join(name);
+    std::fs::write(
+        &stub,
+        format!(
+            "#!/bin/sh\nif [ \"$1\" = --version ]; then echo 'typst 0.15.1 (stub)'; exit 0; fi\nfor a; do out=$a; done\n{body}\n"
+        ),
+    )
+    .unwrap();
+    common::make_executable(&stub);
+    stub
+}
+
+fn names(dir: &Path) -> Vec<String> {
+    let mut n: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+        .collect();
+    n.sort();
+    n
+}
+
+#[test]
+fn report_never_replaces_a_folder_it_did_not_write() {
+    let dir = tempfile::tempdir().unwrap();
+    let signed = dir.path().join("signed");
+    std::fs::create_dir(&signed).unwrap();
+    std::fs::write(signed.join("approved.pdf"), "signed copy").unwrap();
+    let run = plateau(&["report", "--no-pdf", "-o"])
+        .arg_path(&signed)
+        .arg_path(&example("hplc-assay/study.yaml"))
+        .code(1);
+    assert!(run.stderr.contains("signed"), "{}", run.stderr);
+    assert!(run.stderr.contains("choose a new folder"), "{}", run.stderr);
+    assert_eq!(names(&signed), ["approved.pdf"]);
+    assert_eq!(names(dir.path()), ["signed"], "no staging left beside it");
+}
+
+#[test]
+fn report_into_the_study_folder_itself_is_refused_and_the_study_kept() {
+    let dir = tempfile::tempdir().unwrap();
+    let study = copy_example(dir.path());
+    let run = plateau(&["report", "--no-pdf", "-o"])
+        .arg_path(dir.path())
+        .arg_path(&study)
+        .code(1);
+    assert!(
+        run.stderr.contains("no .plateau-output file"),
+        "{}",
+        run.stderr
+    );
+    assert_eq!(names(dir.path()), ["results.csv", "study.yaml"]);
+}
+
+#[test]
+fn a_file_named_as_the_report_folder_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("r");
+    std::fs::write(&file, "keep").unwrap();
+    let run = plateau(&["report", "--no-pdf", "-o"])
+        .arg_path(&file)
+        .arg_path(&example("hplc-assay/study.yaml"))
+        .code(1);
+    assert!(run.stderr.contains("it is a file"), "{}", run.stderr);
+    assert_eq!(std::fs::read_to_string(&file).unwrap(), "keep");
+}
+
+#[test]
+fn an_earlier_report_is_replaced_but_a_file_added_to_it_stops_the_replacement() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("r");
+    let study = example("hplc-assay/study.yaml");
+    for _ in 0..2 {
+        plateau(&["report", "--no-pdf", "--force", "-o"])
+            .arg_path(&out)
+            .arg_path(&study)
+            .ok();
+    }
+    assert!(out.join(".plateau-output").is_file());
+    std::fs::write(out.join("review-notes.txt"), "mine").unwrap();
+    let run = plateau(&["report", "--no-pdf", "--force", "-o"])
+        .arg_path(&out)
+        .arg_path(&study)
+        .code(1);
+    assert!(run.stderr.contains("review-notes.txt"), "{}", run.stderr);
+    assert_eq!(
+        std::fs::read_to_string(out.join("review-notes.txt")).unwrap(),
+        "mine"
+    );
+    assert_eq!(names(dir.path()), ["r"]);
+}
+
+#[test]
+fn verify_never_replaces_a_folder_it_did_not_write() {
+    let dir = tempfile::tempdir().unwrap();
+    let stub = stub_typst(dir.path(), "typst", "printf '%%PDF-1.7 stub\\n' > \"$out\"");
+    let out = dir.path().join("evidence");
+    std::fs::create_dir(&out).unwrap();
+    std::fs::write(out.join("raw-data.csv"), "1,2").unwrap();
+    let run = plateau(&["verify", "--date", "2026-01-01", "--typst"])
+        .arg_path(&stub)
+        .arg("-o")
+        .arg_path(&out)
+        .code(1);
+    assert!(run.stderr.contains("choose a new folder"), "{}", run.stderr);
+    assert_eq!(names(&out), ["raw-data.csv"]);
+    // A new folder is written, and written again over itself.
+    let fresh = dir.path().join("record");
+    for _ in 0..2 {
+        plateau(&["verify", "--date", "2026-01-01", "--typst"])
+            .arg_path(&stub)
+            .arg("-o")
+            .arg_path(&fresh)
+            .ok();
+    }
+    assert!(fresh.join("verification.pdf").is_file());
+}
+
+#[test]
+fn force_replaces_only_a_run_sheet_or_pdf_plateau_could_have_written() {
+    let dir = tempfile::tempdir().unwrap();
+    let study = example("hplc-assay/study.yaml");
+    let notes = dir.path().join("notes.csv");
+    std::fs::write(&notes, "lab notebook").unwrap();
+    let run = plateau(&["design", "--force", "-o"])
+        .arg_path(&notes)
+        .arg_path(&study)
+        .code(1);
+    assert!(run.stderr.contains("notes.csv"), "{}", run.stderr);
+    assert_eq!(std::fs::read_to_string(&notes).unwrap(), "lab notebook");
+    let stub = stub_typst(dir.path(), "typst", "printf '%%PDF-1.7 stub\\n' > \"$out\"");
+    let run = plateau(&["design", "--pdf", "--force", "--typst"])
+        .arg_path(&stub)
+        .arg("-o")
+        .arg_path(&notes)
+        .arg_path(&study)
+        .code(1);
+    assert!(run.stderr.contains("not a PDF"), "{}", run.stderr);
+    assert_eq!(std::fs::read_to_string(&notes).unwrap(), "lab notebook");
+    let sheet = dir.path().join("sheet.pdf");
+    for _ in 0..2 {
+        plateau(&["design", "--pdf", "--force", "--typst"])
+            .arg_path(&stub)
+            .arg("-o")
+            .arg_path(&sheet)
+            .arg_path(&study)
+            .ok();
+    }
+    assert!(std::fs::read(&sheet).unwrap().starts_with(b"%PDF-"));
+    assert_eq!(names(dir.path()), ["notes.csv", "sheet.pdf", "typst"]);
+}
+
+/// Runs a report with the stub and returns the run; the previous report must be unchanged
+/// and nothing left beside it.
+fn report_with_stub(body: &str, timeout: &str) -> common::Run {
+    let dir = tempfile::tempdir().unwrap();
+    let study = copy_example(dir.path());
+    let out = dir.path().join("r");
+    plateau(&["report", "--no-pdf", "-o"])
+        .arg_path(&out)
+        .arg_path(&study)
+        .ok();
+    let before = common_files(&out);
+    let stub = stub_typst(dir.path(), "typst", body);
+    let run = plateau(&["report", "--force", "--typst"])
+        .arg_path(&stub)
+        .env("PLATEAU_TYPST_TIMEOUT", timeout)
+        .arg("-o")
+        .arg_path(&out)
+        .arg_path(&study)
+        .code(3);
+    assert_eq!(common_files(&out), before, "the previous report changed");
+    assert_eq!(
+        names(dir.path()),
+        ["r", "results.csv", "study.yaml", "typst"]
+    );
+    run
+}
+
+#[test]
+fn a_typesetter_that_succeeds_without_a_pdf_replaces_nothing() {
+    let run = report_with_stub("exit 0", "300");
+    assert!(run.stderr.contains("was not written"), "{}", run.stderr);
+}
+
+#[test]
+fn a_typesetter_that_writes_no_pdf_but_garbage_replaces_nothing() {
+    let run = report_with_stub("echo garbage > \"$out\"", "300");
+    assert!(run.stderr.contains("not a PDF"), "{}", run.stderr);
+    let run = report_with_stub(": > \"$out\"", "300");
+    assert!(run.stderr.contains("is empty"), "{}", run.stderr);
+}
+
+#[test]
+fn a_typesetter_that_hangs_is_stopped_at_the_time_limit() {
+    // `sleep` runs as a child of the shell: the whole process group must be stopped.
+    let run = report_with_stub("sleep 600", "1");
+    assert!(
+        run.stderr.contains("did not finish within 1 s"),
+        "{}",
+        run.stderr
+    );
+    assert!(run.stderr.contains("--typst-timeout"), "{}", run.stderr);
+}
+
+#[test]
+fn a_typesetter_that_hangs_on_its_version_is_stopped_too() {
+    let dir = tempfile::tempdir().unwrap();
+    let stub = dir.path().join("typst");
+    std::fs::write(&stub, "#!/bin/sh\nsleep 600\n").unwrap();
+    common::make_executable(&stub);
+    let run = plateau(&["report", "--typst-timeout", "1", "--typst"])
+        .arg_path(&stub)
+        .arg("-o")
+        .arg_path(&dir.path().join("r"))
+        .arg_path(&example("hplc-assay/study.yaml"))
+        .code(3);
+    assert!(run.stderr.contains("--version"), "{}", run.stderr);
+    let run = plateau(&["report", "--typst-timeout", "0", "-o"])
+        .arg_path(&dir.path().join("r"))
+        .arg_path(&example("hplc-assay/study.yaml"))
+        .code(2);
+    assert!(run.stderr.contains("whole seconds"), "{}", run.stderr);
+}
+
+#[test]
+fn an_interrupted_report_removes_its_staging_folders_and_keeps_the_previous_report() {
+    let dir = tempfile::tempdir().unwrap();
+    let study = copy_example(dir.path());
+    let out = dir.path().join("r");
+    plateau(&["report", "--no-pdf", "-o"])
+        .arg_path(&out)
+        .arg_path(&study)
+        .ok();
+    let before = common_files(&out);
+    let stub = stub_typst(dir.path(), "typst", "sleep 600");
+    for signal in ["INT", "TERM"] {
+        let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_plateau"))
+            .args(["report", "--force", "--typst"])
+            .arg(&stub)
+            .arg("-o")
+            .arg(&out)
+            .arg(&study)
+            .spawn()
+            .unwrap();
+        let deadline = std::time::Instant::now() + std::time::Duration::from_secs(20);
+        // Wait until the typesetter is running: its empty package folder exists.
+        while std::time::Instant::now() < deadline
+            && !names(dir.path()).iter().any(|n| {
+                n.starts_with(".r.partial-")
+                    && dir.path().join(n).join(".plateau-no-packages").exists()
+            })
+        {
+            std::thread::sleep(std::time::Duration::from_millis(20));
+        }
+        std::process::Command::new("kill")
+            .arg(format!("-{signal}"))
+            .arg(child.id().to_string())
+            .status()
+            .unwrap();
+        let status = child.wait().unwrap();
+        assert!(!status.success(), "{signal}");
+        assert_eq!(common_files(&out), before, "the previous report changed");
+        assert_eq!(
+            names(dir.path()),
+            ["r", "results.csv", "study.yaml", "typst"],
+            "after SIG{signal}"
+        );
+    }
+}

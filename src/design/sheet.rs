@@ -14,9 +14,12 @@ pub enum Levels {
     Coded,
 }
 
+/// The first header cell of the run sheet (how `--force` recognises an earlier sheet).
+pub const FIRST_COLUMN: &str = "run";
+
 /// The header and rows of the run sheet, in run order.
 pub fn rows(study: &Study, design: &Design, levels: Levels) -> (Vec<String>, Vec<Vec<String>>) {
-    let mut header = vec!["run".to_string(), "order".to_string()];
+    let mut header = vec![FIRST_COLUMN.to_string(), "order".to_string()];
     header.extend(study.factors.iter().map(|f| f.id.clone()));
     header.extend(study.responses.iter().map(|r| r.id.clone()));
     let rows = design
