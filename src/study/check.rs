@@ -747,8 +747,13 @@ fn explicit_runs(
     let mut out = Vec::new();
     for (i, row) in rows.iter().enumerate() {
         let here = at.index(i);
-        let Some(id) = row.get("run").and_then(run_id) else {
-            continue; // the schema has reported it
+        let id = match row.get("run").map(run_id) {
+            Some(Ok(id)) => id,
+            Some(Err(why)) => {
+                c.report(&here.key("run"), why, None);
+                continue;
+            }
+            None => continue, // the schema has reported it
         };
         if !seen.insert(id.clone()) {
             c.report(
@@ -828,12 +833,32 @@ fn tidy(x: f64) -> f64 {
     (x * scale).round() / scale
 }
 
-/// The run id of a YAML value: integers keep their decimal text.
-pub fn run_id(v: &Value) -> Option<RunId> {
+/// The run id of a YAML value in its one canonical form, so that `7`, `7.0`, `"7"` and
+/// `" 7 "` are one id (see [`RunId::canonical`]); `Err` says what is wrong with a blank,
+/// non-integral, out-of-range or non-scalar id, for a message naming the field.
+pub fn run_id(v: &Value) -> Result<RunId, String> {
     match v {
-        Value::Number(n) => n.as_i64().map(|i| RunId(i.to_string())),
-        Value::String(s) if !s.trim().is_empty() => Some(RunId(s.trim().to_string())),
-        _ => None,
+        Value::Number(n) => {
+            if let Some(i) = n.as_i64() {
+                return Ok(RunId(i.to_string()));
+            }
+            match n.as_f64() {
+                Some(f) if f.abs() < 9.0e15 && f.fract() == 0.0 => {
+                    Ok(RunId((f as i64).to_string()))
+                }
+                Some(f) if f.abs() < 9.0e15 => Err(format!(
+                    "run id `{n}` is not a whole number (expected a whole number, or text)"
+                )),
+                _ => Err(format!(
+                    "run id `{n}` is out of range (expected a whole number below 9,000,000,000,000,000, or text)"
+                )),
+            }
+        }
+        Value::String(s) if !s.trim().is_empty() => Ok(RunId::canonical(s)),
+        Value::String(_) | Value::Null => {
+            Err("the run id is blank (expected a whole number, or text)".into())
+        }
+        _ => Err("the run id is not a number or text (expected a whole number, or text)".into()),
     }
 }
 
@@ -1107,7 +1132,13 @@ fn exclusions(c: &mut Checker<'_>, specs: &[model::ExclusionSpec]) -> Vec<super:
     let mut out = Vec::new();
     for (i, e) in specs.iter().enumerate() {
         let at = FieldPath::of(&["excluded"]).index(i);
-        let Some(run) = run_id(&e.run) else { continue };
+        let run = match run_id(&e.run) {
+            Ok(run) => run,
+            Err(why) => {
+                c.report(&at.key("run"), why, None);
+                continue;
+            }
+        };
         if !seen.insert(run.clone()) {
             c.report(
                 &at.key("run"),
