@@ -36,8 +36,32 @@ pub const REPORT_TEMPLATES: [&str; 2] = ["report.typ.j2", "section.typ.j2"];
 /// Name of the record in the report folder.
 pub const RECORD: &str = "inputs.json";
 
+/// Largest input hashed for the record (the results file limit); larger or non-regular files
+/// are recorded as unreadable rather than read without end.
+const MAX_HASHED_BYTES: u64 = 64 * 1024 * 1024;
+
+/// SHA-256 of a regular file, read in a stream (never whole into memory) and bounded.
 fn file_hash(path: &Path) -> String {
-    std::fs::read(path).map_or_else(|_| "unreadable".to_string(), |b| sha256_hex(&b))
+    use sha2::Digest;
+    let unreadable = || "unreadable".to_string();
+    let Ok(meta) = std::fs::metadata(path) else {
+        return unreadable();
+    };
+    if !meta.is_file() || meta.len() > MAX_HASHED_BYTES {
+        return unreadable();
+    }
+    let Ok(file) = std::fs::File::open(path) else {
+        return unreadable();
+    };
+    let mut hasher = sha2::Sha256::new();
+    let mut reader = std::io::Read::take(file, MAX_HASHED_BYTES + 1);
+    match std::io::copy(&mut reader, &mut hasher) {
+        Ok(n) if n <= MAX_HASHED_BYTES => {
+            let digest = hasher.finalize();
+            digest.iter().map(|b| format!("{b:02x}")).collect()
+        }
+        _ => unreadable(),
+    }
 }
 
 /// The inputs of a study as they are now.
@@ -123,6 +147,11 @@ pub enum Status {
     Missing,
 }
 
+/// The input record of the report in `dir`, if there is a readable one.
+pub fn recorded(dir: &Path) -> Option<Inputs> {
+    serde_json::from_str(&read_small(&dir.join(RECORD)).ok()?).ok()
+}
+
 /// The status of the report in `dir` for `study` as it is now.
 pub fn status(
     study: &Study,
@@ -130,7 +159,7 @@ pub fn status(
     templates: Option<&Path>,
     typst_version: Option<&str>,
 ) -> Status {
-    let Ok(text) = std::fs::read_to_string(dir.join(RECORD)) else {
+    let Ok(text) = read_small(&dir.join(RECORD)) else {
         return Status::Missing;
     };
     let Ok(recorded) = serde_json::from_str::<Inputs>(&text) else {
@@ -161,12 +190,58 @@ fn skipped(dir: &Path) -> bool {
     name.starts_with('.') || name == "target" || name.ends_with("-report")
 }
 
+/// A small regular text file (a record), read bounded to 1 MiB.
+fn read_small(path: &Path) -> std::io::Result<String> {
+    let meta = std::fs::metadata(path)?;
+    if !meta.is_file() {
+        return Err(std::io::Error::other("not a regular file"));
+    }
+    let mut text = String::new();
+    std::io::Read::read_to_string(
+        &mut std::io::Read::take(std::fs::File::open(path)?, 1024 * 1024),
+        &mut text,
+    )?;
+    Ok(text)
+}
+
 /// True for a YAML file that declares the study-file format (a top-level `schema:` key).
+/// Only regular files are opened (a FIFO named `*.yaml` would block the search), and only
+/// up to the study-file size limit.
 pub fn is_study_file(path: &Path) -> bool {
     let yaml = path.extension().is_some_and(|e| e == "yaml" || e == "yml");
-    yaml && std::fs::read_to_string(path)
-        .map(|t| t.lines().any(|l| l.starts_with("schema:")))
-        .unwrap_or(false)
+    if !yaml || !std::fs::metadata(path).is_ok_and(|m| m.is_file()) {
+        return false;
+    }
+    let Ok(file) = std::fs::File::open(path) else {
+        return false;
+    };
+    let mut bytes = Vec::new();
+    let limit = crate::study::load::MAX_STUDY_BYTES;
+    if std::io::Read::read_to_end(&mut std::io::Read::take(file, limit), &mut bytes).is_err() {
+        return false;
+    }
+    String::from_utf8_lossy(&bytes)
+        .lines()
+        .any(|l| l.starts_with("schema:"))
+}
+
+/// Pairs of study files whose default report folders are the same (`study.yaml` and
+/// `study.yml` in one folder both report to `study-report/`): reporting both would let one
+/// replace the other's report.
+pub fn report_dir_clashes(files: &[PathBuf]) -> Vec<(PathBuf, PathBuf)> {
+    let mut seen: std::collections::BTreeMap<PathBuf, &PathBuf> = Default::default();
+    let mut out = Vec::new();
+    for f in files {
+        let dir = crate::report::default_dir(f);
+        match seen.get(&dir) {
+            Some(first) if *first != f => out.push(((*first).clone(), f.clone())),
+            Some(_) => {}
+            None => {
+                seen.insert(dir, f);
+            }
+        }
+    }
+    out
 }
 
 /// The study files named by `paths`: files as given, folders searched recursively (sorted,

@@ -409,7 +409,29 @@ fn run(command: Command) -> Result<(), Failure> {
             typst_timeout,
             no_pdf,
         } => {
-            let files = plateau::batch::discover(&studies)?;
+            let mut files = plateau::batch::discover(&studies)?;
+            let mut unique = std::collections::BTreeSet::new();
+            files.retain(|f| unique.insert(f.clone()));
+            if output.is_none() {
+                let clashes = plateau::batch::report_dir_clashes(&files);
+                if !clashes.is_empty() {
+                    let list: Vec<String> = clashes
+                        .iter()
+                        .map(|(a, b)| {
+                            format!(
+                                "{} and {} would both report to {}",
+                                a.display(),
+                                b.display(),
+                                report::default_dir(a).display()
+                            )
+                        })
+                        .collect();
+                    return Err(Failure::Other(format!(
+                        "failed to plan the report folders ({})\nhint: rename one study file of each pair, or report it alone with -o DIR",
+                        list.join("; ")
+                    )));
+                }
+            }
             if files.is_empty() {
                 return Err(Failure::Usage(
                     "no study files found (a study file is a .yaml file with a top-level `schema:` key)".into(),

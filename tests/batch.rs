@@ -108,3 +108,52 @@ fn output_folder_with_several_studies_is_a_usage_error() {
         .arg_path(dir.path())
         .code(2);
 }
+
+#[test]
+fn study_yaml_and_study_yml_in_one_folder_are_refused_naming_both() {
+    let dir = tempfile::tempdir().unwrap();
+    let studies = dossier(dir.path());
+    let folder = studies[0].parent().unwrap();
+    std::fs::copy(&studies[0], folder.join("study.yml")).unwrap();
+    let run = plateau(&["report", "--no-pdf"])
+        .arg_path(dir.path())
+        .code(1);
+    assert!(run.stderr.contains("study.yaml"), "{}", run.stderr);
+    assert!(run.stderr.contains("study.yml "), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("would both report to"),
+        "{}",
+        run.stderr
+    );
+    assert!(!folder.join("study-report").exists());
+    // One at a time, the second cannot replace the first's report either.
+    plateau(&["report", "--no-pdf"]).arg_path(&studies[0]).ok();
+    let run = plateau(&["report", "--no-pdf", "--force"])
+        .arg_path(&folder.join("study.yml"))
+        .code(1);
+    assert!(
+        run.stderr.contains("it holds the report of study.yaml"),
+        "{}",
+        run.stderr
+    );
+}
+
+#[test]
+fn a_fifo_named_like_a_study_does_not_hang_the_search() {
+    let dir = tempfile::tempdir().unwrap();
+    let studies = dossier(dir.path());
+    let fifo = dir.path().join("pipe.yaml");
+    let made = std::process::Command::new("mkfifo")
+        .arg(&fifo)
+        .status()
+        .unwrap();
+    assert!(made.success());
+    // The search skips what is not a regular file: the three studies are found, and the run
+    // ends (a blocked open would hang here).
+    let run = plateau(&["status"]).arg_path(dir.path()).code(1);
+    assert_eq!(run.stdout.lines().count(), studies.len(), "{}", run.stdout);
+    plateau(&["report", "--no-pdf"]).arg_path(dir.path()).ok();
+    // Named directly, it is refused with a message.
+    let run = plateau(&["check"]).arg_path(&fifo).code(1);
+    assert!(run.stderr.contains("not a regular file"), "{}", run.stderr);
+}

@@ -559,3 +559,33 @@ fn an_interrupted_report_removes_its_staging_folders_and_keeps_the_previous_repo
         );
     }
 }
+
+/// The example study with a `report: { logo: ... }` line added.
+fn study_with_logo(dir: &Path, logo: &str) -> std::path::PathBuf {
+    let study = copy_example(dir);
+    let mut text = std::fs::read_to_string(&study).unwrap();
+    text.push_str(&format!("\nreport:\n  logo: {logo}\n"));
+    std::fs::write(&study, text).unwrap();
+    study
+}
+
+#[test]
+fn a_logo_that_is_a_device_or_not_an_image_is_refused_by_check() {
+    let dir = tempfile::tempdir().unwrap();
+    std::os::unix::fs::symlink("/dev/zero", dir.path().join("zero.png")).unwrap();
+    let study = study_with_logo(dir.path(), "zero.png");
+    let run = plateau(&["check"]).arg_path(&study).code(1);
+    assert!(run.stderr.contains("report.logo"), "{}", run.stderr);
+    assert!(run.stderr.contains("not a regular file"), "{}", run.stderr);
+    std::fs::remove_file(dir.path().join("zero.png")).unwrap();
+    std::fs::write(dir.path().join("zero.png"), "GIF89a not a png").unwrap();
+    let run = plateau(&["check"]).arg_path(&study).code(1);
+    assert!(
+        run.stderr.contains("not a PNG, JPEG or SVG"),
+        "{}",
+        run.stderr
+    );
+    // A PNG signature (RFC 2083) is accepted.
+    std::fs::write(dir.path().join("zero.png"), b"\x89PNG\r\n\x1a\n rest").unwrap();
+    plateau(&["check"]).arg_path(&study).ok();
+}

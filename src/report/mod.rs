@@ -153,6 +153,24 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
         .out_dir
         .clone()
         .unwrap_or_else(|| default_dir(&evaluated.study.path));
+    let own = evaluated
+        .study
+        .path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_default();
+    if let Some(other) = crate::batch::recorded(&dest).filter(|r| r.study.0 != own) {
+        return Err(crate::output::OutputError::Occupied {
+            path: dest.display().to_string(),
+            why: format!(
+                "it holds the report of {}, not of {own}; one would replace the other",
+                other.study.0
+            ),
+            hint: "give this study its own folder with -o DIR, or rename one of the study files"
+                .into(),
+        }
+        .into());
+    }
     let files = render_files(evaluated, options)?;
     crate::output::write_folder(&dest, "report folder", &files, |staging| {
         if let Some(typst) = &options.typst {

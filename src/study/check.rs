@@ -62,19 +62,15 @@ pub fn study(
     let excluded = exclusions(&mut c, &file.excluded);
     if let Some(logo) = file.report.as_ref().and_then(|r| r.logo.as_ref()) {
         let full = path.parent().unwrap_or_else(|| Path::new(".")).join(logo);
-        let size = std::fs::metadata(&full).map(|m| m.len());
-        match size {
-            Err(_) => c.report(
+        if let Err(why) = check_logo(&full) {
+            c.report(
                 &FieldPath::of(&["report", "logo"]),
-                format!("the logo `{logo}` cannot be read"),
-                Some(format!("expected an image file at {}", full.display())),
-            ),
-            Ok(n) if n > 2 * 1024 * 1024 => c.report(
-                &FieldPath::of(&["report", "logo"]),
-                format!("the logo is {n} bytes"),
-                Some("expected at most 2 MiB".into()),
-            ),
-            Ok(_) => {}
+                format!("the logo `{logo}` {why}"),
+                Some(format!(
+                    "expected a PNG, JPEG or SVG image file of at most 2 MiB at {}",
+                    full.display()
+                )),
+            );
         }
     }
     if file.study.source_reference.is_some()
@@ -831,6 +827,49 @@ fn tidy(x: f64) -> f64 {
     let digits = 12 - 1 - x.abs().log10().floor() as i32;
     let scale = 10f64.powi(digits.clamp(-300, 300));
     (x * scale).round() / scale
+}
+
+/// Largest logo accepted (bytes).
+pub const MAX_LOGO_BYTES: u64 = 2 * 1024 * 1024;
+
+/// Checks that a logo is a regular file of at most [`MAX_LOGO_BYTES`] whose first bytes are a
+/// PNG or JPEG signature or SVG markup, the formats typst embeds; `Err` says what is wrong.
+/// Only regular files are opened: a FIFO would block and a device such as /dev/zero never ends.
+pub fn check_logo(path: &Path) -> Result<(), String> {
+    let meta = std::fs::metadata(path).map_err(|_| "cannot be read".to_string())?;
+    if !meta.is_file() {
+        return Err("is not a regular file (a folder, pipe or device)".into());
+    }
+    if meta.len() > MAX_LOGO_BYTES {
+        return Err(format!("is {} bytes", meta.len()));
+    }
+    let mut head = Vec::new();
+    std::fs::File::open(path)
+        .and_then(|f| std::io::Read::read_to_end(&mut std::io::Read::take(f, 512), &mut head))
+        .map_err(|_| "cannot be read".to_string())?;
+    if image_kind(&head).is_none() {
+        return Err("is not a PNG, JPEG or SVG image (judged by its first bytes)".into());
+    }
+    Ok(())
+}
+
+/// The image format of a file from its first bytes: PNG (RFC 2083 signature), JPEG (SOI
+/// marker FF D8 FF) or SVG (XML or `<svg` text; common practice).
+pub fn image_kind(head: &[u8]) -> Option<&'static str> {
+    if head.starts_with(b"\x89PNG\r\n\x1a\n") {
+        return Some("png");
+    }
+    if head.starts_with(&[0xFF, 0xD8, 0xFF]) {
+        return Some("jpeg");
+    }
+    let text = String::from_utf8_lossy(head);
+    let text = text.trim_start_matches('\u{feff}').trim_start();
+    if text.starts_with("<svg")
+        || (text.starts_with("<?xml") || text.starts_with("<!--")) && text.contains("<svg")
+    {
+        return Some("svg");
+    }
+    None
 }
 
 /// The run id of a YAML value in its one canonical form, so that `7`, `7.0`, `"7"` and

@@ -56,6 +56,14 @@ pub fn read_limited(path: &Path, limit: u64, file_name: &str) -> Result<Vec<u8>,
             Some("expected a study file (.yaml)".into()),
         ));
     }
+    // Only regular files are opened: opening a FIFO blocks until someone writes to it, and a
+    // device may never end.
+    if !meta.is_file() {
+        return Err(whole_file(
+            "is not a regular file (a pipe, socket or device)".into(),
+            Some("expected a regular file".into()),
+        ));
+    }
     let too_large = |size: String| {
         whole_file(
             format!("the file is too large ({size} bytes)"),
