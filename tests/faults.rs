@@ -589,3 +589,34 @@ fn a_logo_that_is_a_device_or_not_an_image_is_refused_by_check() {
     std::fs::write(dir.path().join("zero.png"), b"\x89PNG\r\n\x1a\n rest").unwrap();
     plateau(&["check"]).arg_path(&study).ok();
 }
+
+#[test]
+fn what_check_accepts_the_typesetter_typesets_line_separators_and_a_date_before_1970() {
+    // Both cases pass `plateau check` (tests/bad_inputs); the report must typeset them too.
+    let typst = typst_binary();
+    for case in ["ok-text-line-separators", "ok-date-before-1970"] {
+        let dir = tempfile::tempdir().unwrap();
+        let from = common::root().join("tests/bad_inputs").join(case);
+        for f in ["study.yaml", "results.csv"] {
+            std::fs::copy(from.join(f), dir.path().join(f)).unwrap();
+        }
+        let out = dir.path().join("r");
+        plateau(&["report", "--typst"])
+            .arg_path(&typst)
+            .arg("-o")
+            .arg_path(&out)
+            .arg_path(&dir.path().join("study.yaml"))
+            .ok();
+        let section = std::fs::read_to_string(out.join("section.typ")).unwrap();
+        for sep in ['\u{000B}', '\u{000C}', '\u{0085}', '\u{2028}', '\u{2029}'] {
+            assert!(
+                !section.contains(sep),
+                "{case}: {sep:?} reached the Typst source"
+            );
+        }
+        assert!(
+            pdf_text(&out.join("report.pdf")).contains("Marsh"),
+            "{case}"
+        );
+    }
+}

@@ -86,6 +86,9 @@ pub fn study(
         check_results_spec(&mut c, results);
     }
     check_id_clashes(&mut c, &file);
+    if let Ok(tree) = serde_json::to_value(&file) {
+        check_printable(&mut c, &tree, &FieldPath::root());
+    }
     if !c.problems.is_empty() {
         return Err(c.problems.sorted());
     }
@@ -827,6 +830,38 @@ fn tidy(x: f64) -> f64 {
     let digits = 12 - 1 - x.abs().log10().floor() as i32;
     let scale = 10f64.powi(digits.clamp(-300, 300));
     (x * scale).round() / scale
+}
+
+/// Refuses any text in the study the report fonts cannot print (CJK, emoji, control
+/// characters...), naming the field, so that what `check` accepts `report` typesets.
+fn check_printable(c: &mut Checker<'_>, value: &Value, at: &FieldPath) {
+    match value {
+        Value::String(text) => {
+            if let Some(ch) = super::glyphs::first_unprintable(text) {
+                let shown = if ch.is_control() {
+                    format!("U+{:04X} (a control character)", u32::from(ch))
+                } else {
+                    format!("`{ch}` (U+{:04X})", u32::from(ch))
+                };
+                c.report(
+                    at,
+                    format!("the character {shown} cannot be printed in the report"),
+                    Some("expected characters the report fonts have: Latin, Greek, Cyrillic, Hebrew, Armenian, punctuation, units and mathematical signs; write the text without it".into()),
+                );
+            }
+        }
+        Value::Array(items) => {
+            for (i, item) in items.iter().enumerate() {
+                check_printable(c, item, &at.index(i));
+            }
+        }
+        Value::Object(map) => {
+            for (key, item) in map {
+                check_printable(c, item, &at.key(key));
+            }
+        }
+        _ => {}
+    }
 }
 
 /// Largest logo accepted (bytes).
