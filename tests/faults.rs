@@ -620,3 +620,81 @@ fn what_check_accepts_the_typesetter_typesets_line_separators_and_a_date_before_
         );
     }
 }
+
+/// A study with `k` factors `f1..fk` and the given `design:` block.
+fn many_factors(k: usize, design: &str) -> String {
+    let mut text = String::from(
+        "schema: 1\nstudy: { id: B-1, title: bounds, method: m, analyst: a, date: 2026-01-01 }\nfactors:\n",
+    );
+    for j in 1..=k {
+        text.push_str(&format!(
+            "  - {{ id: f{j}, name: F{j}, nominal: 10, delta: 1 }}\n"
+        ));
+    }
+    text.push_str(design);
+    text.push_str("responses:\n  - { id: c, name: C, percent-of: mean }\n");
+    text
+}
+
+#[test]
+fn a_saturated_31_factor_fraction_is_refused_with_the_generator_bound() {
+    // 2^(31−26): the 26 interactions of five base factors as generators (once minutes and
+    // gigabytes in `check`, enumerating 2^26 − 1 words).
+    let base = ["f1", "f2", "f3", "f4", "f5"];
+    let mut words = Vec::new();
+    for mask in 1u32..32 {
+        if mask.count_ones() >= 2 {
+            let w: Vec<&str> = (0..5)
+                .filter(|i| mask >> i & 1 == 1)
+                .map(|i| base[i])
+                .collect();
+            words.push(w.join("*"));
+        }
+    }
+    let generators: Vec<String> = words
+        .iter()
+        .enumerate()
+        .map(|(i, w)| format!("\"f{} = {w}\"", i + 6))
+        .collect();
+    let design = format!(
+        "design:\n  kind: fractional-factorial\n  generators: [{}]\n",
+        generators.join(", ")
+    );
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("s.yaml");
+    std::fs::write(&path, many_factors(31, &design)).unwrap();
+    let run = plateau(&["check"]).arg_path(&path).code(1);
+    assert!(run.stderr.contains("26 generators"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("at most 16 generators"),
+        "{}",
+        run.stderr
+    );
+    assert!(run.stderr.contains("plackett-burman"), "{}", run.stderr);
+}
+
+#[test]
+fn a_1024_run_explicit_design_is_checked_with_every_contrast() {
+    // The explicit listing of a 2^10 full factorial: 1,023 contrasts (2^10 − 1, by definition).
+    let mut design = String::from("design:\n  kind: explicit\n  runs:\n");
+    for i in 0..1024u32 {
+        let levels: Vec<String> = (0..10)
+            .map(|j| format!("f{}: {}", j + 1, if i >> j & 1 == 1 { 1 } else { -1 }))
+            .collect();
+        design.push_str(&format!(
+            "    - {{run: {}, {}}}\n",
+            i + 1,
+            levels.join(", ")
+        ));
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("s.yaml");
+    std::fs::write(&path, many_factors(10, &design)).unwrap();
+    let run = plateau(&["check"]).arg_path(&path).ok();
+    assert!(
+        run.stdout
+            .contains("1024 runs (1024 two-level, 0 nominal), 1023 estimable contrasts"),
+        "{}",
+        run.stdout
+    );
+}
