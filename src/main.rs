@@ -232,6 +232,13 @@ impl From<Diagnostics> for Failure {
 }
 
 fn main() -> ExitCode {
+    // Output into a closed pipe (`plateau design s.yaml | head`) ends the process the usual
+    // way, by SIGPIPE, instead of a panic in println! (Rust ignores SIGPIPE by default).
+    #[cfg(unix)]
+    // SAFETY: restoring the default action of one signal before any thread is started.
+    unsafe {
+        libc::signal(libc::SIGPIPE, libc::SIG_DFL);
+    }
     let cli = Cli::parse();
     match run(cli.command) {
         Ok(()) => ExitCode::SUCCESS,

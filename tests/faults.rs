@@ -698,3 +698,29 @@ fn a_1024_run_explicit_design_is_checked_with_every_contrast() {
         run.stdout
     );
 }
+
+#[test]
+fn output_into_a_closed_pipe_ends_quietly() {
+    // A 2^12 run sheet (about 100 kB) is more than a pipe holds, so the writes meet the
+    // closed end.
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("s.yaml");
+    std::fs::write(&path, many_factors(12, "design:\n  kind: full-factorial\n")).unwrap();
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_plateau"))
+        .arg("design")
+        .arg(&path)
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    drop(child.stdout.take());
+    let out = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(!stderr.contains("panicked"), "{stderr}");
+    use std::os::unix::process::ExitStatusExt;
+    assert!(
+        out.status.success() || out.status.signal() == Some(13),
+        "ended by SIGPIPE (13) or exit 0, not {:?}",
+        out.status
+    );
+}

@@ -344,6 +344,14 @@ fn csv_rows(
         name: file.to_string(),
         sha256: sha256_hex(&bytes),
     };
+    // Line numbers come from byte offsets: the csv crate's own line count is one too low for a
+    // file with CRLF line ends.
+    let newlines: Vec<usize> = text
+        .bytes()
+        .enumerate()
+        .filter(|(_, b)| *b == b'\n')
+        .map(|(i, _)| i)
+        .collect();
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(true)
         .flexible(true)
@@ -434,7 +442,7 @@ fn csv_rows(
         let record = match record {
             Ok(r) => r,
             Err(e) => {
-                let line = e.position().map(|p| p.line() as usize);
+                let line = e.position().map(|p| line_of(&newlines, p.byte()));
                 problems.push(one(
                     line,
                     "",
@@ -444,7 +452,7 @@ fn csv_rows(
                 continue;
             }
         };
-        let line = record.position().map(|p| p.line() as usize);
+        let line = record.position().map(|p| line_of(&newlines, p.byte()));
         if record.iter().all(str::is_empty) {
             continue; // a blank line, e.g. at the end of the file
         }
@@ -578,6 +586,13 @@ fn setting_text(s: &Setting) -> String {
         Setting::Value(v) => format!("{v}"),
         Setting::Level(l) => format!("`{l}`"),
     }
+}
+
+/// The 1-based line of the byte at `offset`, from the offsets of the newlines before it.
+fn line_of(newlines: &[usize], offset: u64) -> usize {
+    let offset = usize::try_from(offset).unwrap_or(usize::MAX);
+    // With CRLF ends the csv crate puts a record's start on the LF of the line before it.
+    newlines.partition_point(|&n| n <= offset) + 1
 }
 
 /// One factor cell of a results sheet, judged once the whole sheet is read.
