@@ -88,22 +88,46 @@ pub fn inputs(study: &Study, templates: Option<&Path>, typst_version: Option<&st
             .logo
             .as_ref()
             .map(|f| (name(f), file_hash(&dir.join(f)))),
-        templates: BUILT_IN
-            .iter()
-            .filter(|(n, _)| REPORT_TEMPLATES.contains(n))
-            .map(|(n, text)| {
-                let lab = templates.map(|d| d.join(n)).filter(|p| p.is_file());
-                match lab {
-                    Some(p) => ((*n).to_string(), file_hash(&p), "lab".to_string()),
-                    None => (
-                        (*n).to_string(),
-                        sha256_hex(text.as_bytes()),
-                        "built-in".to_string(),
-                    ),
-                }
-            })
-            .collect(),
+        templates: templates_used(templates),
     }
+}
+
+/// The templates a report may use: the two report templates (the lab's copy or the built-in
+/// one) and every other `*.j2` file in the lab's folder, since a report template can
+/// `{% include %}` or `{% import %}` any of them and a change there changes the report.
+fn templates_used(lab: Option<&Path>) -> Vec<(String, String, String)> {
+    let mut out: Vec<(String, String, String)> = BUILT_IN
+        .iter()
+        .filter(|(n, _)| REPORT_TEMPLATES.contains(n))
+        .map(|(n, text)| {
+            let lab = lab.map(|d| d.join(n)).filter(|p| p.is_file());
+            match lab {
+                Some(p) => ((*n).to_string(), file_hash(&p), "lab".to_string()),
+                None => (
+                    (*n).to_string(),
+                    sha256_hex(text.as_bytes()),
+                    "built-in".to_string(),
+                ),
+            }
+        })
+        .collect();
+    let Some(dir) = lab else {
+        return out;
+    };
+    let mut others: Vec<String> = std::fs::read_dir(dir)
+        .into_iter()
+        .flatten()
+        .flatten()
+        .filter(|e| e.file_type().is_ok_and(|t| t.is_file()))
+        .map(|e| e.file_name().to_string_lossy().to_string())
+        .filter(|n| n.ends_with(".j2") && !REPORT_TEMPLATES.contains(&n.as_str()))
+        .collect();
+    others.sort();
+    for name in others {
+        let hash = file_hash(&dir.join(&name));
+        out.push((name, hash, "lab".to_string()));
+    }
+    out
 }
 
 /// What differs between the recorded inputs and the current ones, in words.
@@ -131,6 +155,11 @@ pub fn changes(recorded: &Inputs, now: &Inputs) -> Vec<String> {
     for t in &now.templates {
         if !recorded.templates.contains(t) {
             out.push(format!("template {} changed ({})", t.0, t.2));
+        }
+    }
+    for t in &recorded.templates {
+        if !now.templates.iter().any(|n| n.0 == t.0) {
+            out.push(format!("template {} no longer used", t.0));
         }
     }
     out

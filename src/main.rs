@@ -521,12 +521,16 @@ fn run(command: Command) -> Result<(), Failure> {
                     ),
                     Ok(study) => {
                         let dir = report::default_dir(file);
-                        match plateau::batch::status(
-                            &study,
-                            &dir,
-                            templates.as_deref(),
-                            typst_version.as_deref(),
-                        ) {
+                        // A report made with --no-pdf records typst `none`: it is current when
+                        // its inputs are, whatever typst is installed now.
+                        let no_pdf =
+                            plateau::batch::recorded(&dir).is_some_and(|r| r.typst == "none");
+                        let version = if no_pdf {
+                            Some("none")
+                        } else {
+                            typst_version.as_deref()
+                        };
+                        match plateau::batch::status(&study, &dir, templates.as_deref(), version) {
                             plateau::batch::Status::Current => {
                                 format!("current  {}", file.display())
                             }
