@@ -413,9 +413,63 @@ pub fn write_bytes(dest: &Path, kind: Kind, force: bool, bytes: &[u8]) -> Result
     })
 }
 
+/// A CSV cell made safe to open in a spreadsheet: a cell starting with `=`, `+`, `-`, `@`,
+/// tab or carriage return would be run as a formula, so it gets a leading apostrophe
+/// (common practice; OWASP, "CSV Injection"). A plain number such as `-0.25` or `+1e-3` stays
+/// a number.
+pub fn spreadsheet_safe(cell: &str) -> std::borrow::Cow<'_, str> {
+    let risky = cell.starts_with(['=', '+', '-', '@', '\t', '\r']);
+    if risky && !is_plain_number(cell) {
+        std::borrow::Cow::Owned(format!("'{cell}"))
+    } else {
+        std::borrow::Cow::Borrowed(cell)
+    }
+}
+
+/// The cell as plateau wrote it before [`spreadsheet_safe`] (for reading a run sheet back).
+pub fn unneutralised(cell: &str) -> &str {
+    match cell.strip_prefix('\'') {
+        Some(rest) if rest.starts_with(['=', '+', '-', '@', '\t', '\r']) => rest,
+        _ => cell,
+    }
+}
+
+fn is_plain_number(cell: &str) -> bool {
+    cell.bytes()
+        .all(|b| b.is_ascii_digit() || matches!(b, b'+' | b'-' | b'.' | b'e' | b'E'))
+        && cell.bytes().any(|b| b.is_ascii_digit())
+        && cell.parse::<f64>().is_ok_and(f64::is_finite)
+}
+
+/// A CSV table (header and rows, LF line ends) with every cell [`spreadsheet_safe`]: the one
+/// CSV writer of plateau's tables and run sheets.
+pub fn csv_bytes(header: &[String], rows: &[Vec<String>]) -> Vec<u8> {
+    let mut w = csv::WriterBuilder::new()
+        .terminator(csv::Terminator::Any(b'\n'))
+        .from_writer(Vec::new());
+    let _ = w.write_record(header.iter().map(|c| spreadsheet_safe(c).into_owned()));
+    for row in rows {
+        let _ = w.write_record(row.iter().map(|c| spreadsheet_safe(c).into_owned()));
+    }
+    w.into_inner().unwrap_or_default()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn formula_cells_get_an_apostrophe_but_numbers_stay_numbers() {
+        // The trigger characters are those listed by OWASP, "CSV Injection" (common practice).
+        for cell in ["=1+1", "+A1", "-A1", "@SUM(A1)", "\tx", "\rx", "-", "-inf"] {
+            assert_eq!(spreadsheet_safe(cell), format!("'{cell}"), "{cell:?}");
+            assert_eq!(unneutralised(&spreadsheet_safe(cell)), cell);
+        }
+        for cell in ["-0.25", "+1e-3", "12", "lot A", "'quoted"] {
+            assert_eq!(spreadsheet_safe(cell), cell);
+            assert_eq!(unneutralised(cell), cell);
+        }
+    }
 
     #[test]
     fn a_folder_without_the_marker_is_refused_and_kept() {

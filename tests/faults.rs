@@ -724,3 +724,55 @@ fn output_into_a_closed_pipe_ends_quietly() {
         out.status
     );
 }
+
+#[test]
+fn csv_cells_a_spreadsheet_would_run_are_neutralised_and_read_back() {
+    // Formula triggers from OWASP, "CSV Injection" (common practice); -0.25 stays a number.
+    let dir = tempfile::tempdir().unwrap();
+    let study = dir.path().join("s.yaml");
+    std::fs::write(
+        &study,
+        r#"schema: 1
+study: { id: C-1, title: csv, method: m, analyst: a, date: 2026-01-01 }
+factors:
+  - { id: lot, name: "=HYPERLINK(1)", levels: ["=cmd|' /C calc'!A0", "-lot B"] }
+  - { id: shift, name: "@shift", nominal: 0, delta: 0.25 }
+design: { kind: full-factorial }
+responses:
+  - { id: c, name: C, percent-of: mean }
+results: { file: sheet.csv }
+"#,
+    )
+    .unwrap();
+    let sheet = dir.path().join("sheet.csv");
+    plateau(&["design", "-o"])
+        .arg_path(&sheet)
+        .arg_path(&study)
+        .ok();
+    let text = std::fs::read_to_string(&sheet).unwrap();
+    assert!(text.contains("'=cmd|' /C calc'!A0"), "{text}");
+    assert!(text.contains("'-lot B"), "{text}");
+    assert!(text.contains(",-0.25,"), "{text}");
+    // Filled in, the sheet reads back as the plan.
+    let filled: String = text
+        .lines()
+        .enumerate()
+        .map(|(i, l)| {
+            if i == 0 {
+                format!("{l}\n")
+            } else {
+                format!("{l}{}\n", 100 + i)
+            }
+        })
+        .collect();
+    std::fs::write(&sheet, filled).unwrap();
+    plateau(&["check"]).arg_path(&study).ok();
+    let out = dir.path().join("r");
+    plateau(&["report", "--no-pdf", "-o"])
+        .arg_path(&out)
+        .arg_path(&study)
+        .ok();
+    let factors = std::fs::read_to_string(out.join("factors.csv")).unwrap();
+    assert!(factors.contains("'=HYPERLINK(1)"), "{factors}");
+    assert!(factors.contains("'@shift"), "{factors}");
+}

@@ -476,7 +476,7 @@ fn csv_rows(
             ));
             continue;
         }
-        let run_text = record.get(run_col).unwrap_or_default();
+        let run_text = crate::output::unneutralised(record.get(run_col).unwrap_or_default());
         if run_text.is_empty() {
             problems.push(one(
                 line,
@@ -520,7 +520,7 @@ fn csv_rows(
                 let Some(col) = header.iter().position(|h| h == &f.id) else {
                     continue;
                 };
-                let cell = record.get(col).unwrap_or_default();
+                let cell = crate::output::unneutralised(record.get(col).unwrap_or_default());
                 let expected = planned_run
                     .coded
                     .get(j)
