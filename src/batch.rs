@@ -36,8 +36,32 @@ pub const REPORT_TEMPLATES: [&str; 2] = ["report.typ.j2", "section.typ.j2"];
 /// Name of the record in the report folder.
 pub const RECORD: &str = "inputs.json";
 
+/// Largest input hashed for the record (the results file limit); larger or non-regular files
+/// are recorded as unreadable rather than read without end.
+const MAX_HASHED_BYTES: u64 = 64 * 1024 * 1024;
+
+/// SHA-256 of a regular file, read in a stream (never whole into memory) and bounded.
 fn file_hash(path: &Path) -> String {
-    std::fs::read(path).map_or_else(|_| "unreadable".to_string(), |b| sha256_hex(&b))
+    use sha2::Digest;
+    let unreadable = || "unreadable".to_string();
+    let Ok(meta) = std::fs::metadata(path) else {
+        return unreadable();
+    };
+    if !meta.is_file() || meta.len() > MAX_HASHED_BYTES {
+        return unreadable();
+    }
+    let Ok(file) = std::fs::File::open(path) else {
+        return unreadable();
+    };
+    let mut hasher = sha2::Sha256::new();
+    let mut reader = std::io::Read::take(file, MAX_HASHED_BYTES + 1);
+    match std::io::copy(&mut reader, &mut hasher) {
+        Ok(n) if n <= MAX_HASHED_BYTES => {
+            let digest = hasher.finalize();
+            digest.iter().map(|b| format!("{b:02x}")).collect()
+        }
+        _ => unreadable(),
+    }
 }
 
 /// The inputs of a study as they are now.
@@ -64,22 +88,46 @@ pub fn inputs(study: &Study, templates: Option<&Path>, typst_version: Option<&st
             .logo
             .as_ref()
             .map(|f| (name(f), file_hash(&dir.join(f)))),
-        templates: BUILT_IN
-            .iter()
-            .filter(|(n, _)| REPORT_TEMPLATES.contains(n))
-            .map(|(n, text)| {
-                let lab = templates.map(|d| d.join(n)).filter(|p| p.is_file());
-                match lab {
-                    Some(p) => ((*n).to_string(), file_hash(&p), "lab".to_string()),
-                    None => (
-                        (*n).to_string(),
-                        sha256_hex(text.as_bytes()),
-                        "built-in".to_string(),
-                    ),
-                }
-            })
-            .collect(),
+        templates: templates_used(templates),
     }
+}
+
+/// The templates a report may use: the two report templates (the lab's copy or the built-in
+/// one) and every other `*.j2` file in the lab's folder, since a report template can
+/// `{% include %}` or `{% import %}` any of them and a change there changes the report.
+fn templates_used(lab: Option<&Path>) -> Vec<(String, String, String)> {
+    let mut out: Vec<(String, String, String)> = BUILT_IN
+        .iter()
+        .filter(|(n, _)| REPORT_TEMPLATES.contains(n))
+        .map(|(n, text)| {
+            let lab = lab.map(|d| d.join(n)).filter(|p| p.is_file());
+            match lab {
+                Some(p) => ((*n).to_string(), file_hash(&p), "lab".to_string()),
+                None => (
+                    (*n).to_string(),
+                    sha256_hex(text.as_bytes()),
+                    "built-in".to_string(),
+                ),
+            }
+        })
+        .collect();
+    let Some(dir) = lab else {
+        return out;
+    };
+    let mut others: Vec<String> = std::fs::read_dir(dir)
+        .into_iter()
+        .flatten()
+        .flatten()
+        .filter(|e| e.file_type().is_ok_and(|t| t.is_file()))
+        .map(|e| e.file_name().to_string_lossy().to_string())
+        .filter(|n| n.ends_with(".j2") && !REPORT_TEMPLATES.contains(&n.as_str()))
+        .collect();
+    others.sort();
+    for name in others {
+        let hash = file_hash(&dir.join(&name));
+        out.push((name, hash, "lab".to_string()));
+    }
+    out
 }
 
 /// What differs between the recorded inputs and the current ones, in words.
@@ -109,6 +157,11 @@ pub fn changes(recorded: &Inputs, now: &Inputs) -> Vec<String> {
             out.push(format!("template {} changed ({})", t.0, t.2));
         }
     }
+    for t in &recorded.templates {
+        if !now.templates.iter().any(|n| n.0 == t.0) {
+            out.push(format!("template {} no longer used", t.0));
+        }
+    }
     out
 }
 
@@ -123,6 +176,11 @@ pub enum Status {
     Missing,
 }
 
+/// The input record of the report in `dir`, if there is a readable one.
+pub fn recorded(dir: &Path) -> Option<Inputs> {
+    serde_json::from_str(&read_small(&dir.join(RECORD)).ok()?).ok()
+}
+
 /// The status of the report in `dir` for `study` as it is now.
 pub fn status(
     study: &Study,
@@ -130,7 +188,7 @@ pub fn status(
     templates: Option<&Path>,
     typst_version: Option<&str>,
 ) -> Status {
-    let Ok(text) = std::fs::read_to_string(dir.join(RECORD)) else {
+    let Ok(text) = read_small(&dir.join(RECORD)) else {
         return Status::Missing;
     };
     let Ok(recorded) = serde_json::from_str::<Inputs>(&text) else {
@@ -161,12 +219,58 @@ fn skipped(dir: &Path) -> bool {
     name.starts_with('.') || name == "target" || name.ends_with("-report")
 }
 
+/// A small regular text file (a record), read bounded to 1 MiB.
+fn read_small(path: &Path) -> std::io::Result<String> {
+    let meta = std::fs::metadata(path)?;
+    if !meta.is_file() {
+        return Err(std::io::Error::other("not a regular file"));
+    }
+    let mut text = String::new();
+    std::io::Read::read_to_string(
+        &mut std::io::Read::take(std::fs::File::open(path)?, 1024 * 1024),
+        &mut text,
+    )?;
+    Ok(text)
+}
+
 /// True for a YAML file that declares the study-file format (a top-level `schema:` key).
+/// Only regular files are opened (a FIFO named `*.yaml` would block the search), and only
+/// up to the study-file size limit.
 pub fn is_study_file(path: &Path) -> bool {
     let yaml = path.extension().is_some_and(|e| e == "yaml" || e == "yml");
-    yaml && std::fs::read_to_string(path)
-        .map(|t| t.lines().any(|l| l.starts_with("schema:")))
-        .unwrap_or(false)
+    if !yaml || !std::fs::metadata(path).is_ok_and(|m| m.is_file()) {
+        return false;
+    }
+    let Ok(file) = std::fs::File::open(path) else {
+        return false;
+    };
+    let mut bytes = Vec::new();
+    let limit = crate::study::load::MAX_STUDY_BYTES;
+    if std::io::Read::read_to_end(&mut std::io::Read::take(file, limit), &mut bytes).is_err() {
+        return false;
+    }
+    String::from_utf8_lossy(&bytes)
+        .lines()
+        .any(|l| l.starts_with("schema:"))
+}
+
+/// Pairs of study files whose default report folders are the same (`study.yaml` and
+/// `study.yml` in one folder both report to `study-report/`): reporting both would let one
+/// replace the other's report.
+pub fn report_dir_clashes(files: &[PathBuf]) -> Vec<(PathBuf, PathBuf)> {
+    let mut seen: std::collections::BTreeMap<PathBuf, &PathBuf> = Default::default();
+    let mut out = Vec::new();
+    for f in files {
+        let dir = crate::report::default_dir(f);
+        match seen.get(&dir) {
+            Some(first) if *first != f => out.push(((*first).clone(), f.clone())),
+            Some(_) => {}
+            None => {
+                seen.insert(dir, f);
+            }
+        }
+    }
+    out
 }
 
 /// The study files named by `paths`: files as given, folders searched recursively (sorted,

@@ -16,6 +16,7 @@ pub mod batch;
 pub mod design;
 pub mod diff;
 pub mod follow_up;
+pub mod output;
 pub mod pipeline;
 pub mod plot;
 pub mod report;

@@ -14,7 +14,8 @@ const EXIT_CODES: &str = "Exit codes:
   0  success
   1  invalid study file, results or template; or a file could not be written
   2  command-line usage error
-  3  the typesetter (typst) is missing, has the wrong version, or failed";
+  3  the typesetter (typst) is missing, has the wrong version, failed, took longer than
+     its time limit, or wrote no valid PDF";
 
 /// Robustness studies of analytical methods: from one YAML study file to the typeset
 /// robustness chapter of a validation report.
@@ -93,6 +94,9 @@ enum Command {
         /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
         #[arg(long, value_name = "PATH")]
         typst: Option<PathBuf>,
+        /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
+        #[arg(long, value_name = "SECONDS")]
+        typst_timeout: Option<u64>,
         /// Write everything except the PDF (no typesetter needed).
         #[arg(long)]
         no_pdf: bool,
@@ -117,6 +121,9 @@ enum Command {
         /// The typst binary (with --pdf) [default: $PLATEAU_TYPST, then `typst` on the PATH].
         #[arg(long, value_name = "PATH")]
         typst: Option<PathBuf>,
+        /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
+        #[arg(long, value_name = "SECONDS")]
+        typst_timeout: Option<u64>,
     },
     /// Write a commented starter study file that `plateau check` accepts as it is.
     #[command(after_help = EXIT_CODES)]
@@ -142,6 +149,9 @@ enum Command {
         /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
         #[arg(long, value_name = "PATH")]
         typst: Option<PathBuf>,
+        /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
+        #[arg(long, value_name = "SECONDS")]
+        typst_timeout: Option<u64>,
     },
     /// Run the reference cases on this installation and write a calculation verification
     /// record (installation and operational qualification evidence).
@@ -159,6 +169,9 @@ enum Command {
         /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
         #[arg(long, value_name = "PATH")]
         typst: Option<PathBuf>,
+        /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
+        #[arg(long, value_name = "SECONDS")]
+        typst_timeout: Option<u64>,
     },
     /// Show what changed between two versions of a study: the inputs (factors, design,
     /// criteria, results per run) and the outputs (effects, verdicts, conclusion sentences).
@@ -186,6 +199,9 @@ enum Command {
         /// The typst binary (with --pdf) [default: $PLATEAU_TYPST, then `typst` on the PATH].
         #[arg(long, value_name = "PATH")]
         typst: Option<PathBuf>,
+        /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
+        #[arg(long, value_name = "SECONDS")]
+        typst_timeout: Option<u64>,
     },
     /// Work with the report templates.
     Templates {
@@ -243,6 +259,13 @@ impl From<Diagnostics> for Failure {
 }
 
 fn main() -> ExitCode {
+    // Output into a closed pipe (`plateau design s.yaml | head`) ends the process the usual
+    // way, by SIGPIPE, instead of a panic in println! (Rust ignores SIGPIPE by default).
+    #[cfg(unix)]
+    // SAFETY: restoring the default action of one signal before any thread is started.
+    unsafe {
+        libc::signal(libc::SIGPIPE, libc::SIG_DFL);
+    }
     let cli = Cli::parse();
     match run(cli.command) {
         Ok(()) => ExitCode::SUCCESS,
@@ -266,6 +289,15 @@ fn main() -> ExitCode {
             ExitCode::from(3)
         }
     }
+}
+
+/// Finds typst with the time limit of `--typst-timeout` / `PLATEAU_TYPST_TIMEOUT`.
+fn find_typst(
+    path: Option<&std::path::Path>,
+    timeout: Option<u64>,
+) -> Result<typst::Typst, Failure> {
+    let limit = typst::timeout(timeout).map_err(Failure::Usage)?;
+    typst::find_with(path, limit).map_err(|e| Failure::Typesetter(e.to_string()))
 }
 
 fn run(command: Command) -> Result<(), Failure> {
@@ -318,6 +350,7 @@ fn run(command: Command) -> Result<(), Failure> {
             pdf,
             force,
             typst: typst_path,
+            typst_timeout,
         } => {
             let (s, design) = pipeline::plan(&study)?;
             let levels = if coded {
@@ -325,21 +358,21 @@ fn run(command: Command) -> Result<(), Failure> {
             } else {
                 sheet::Levels::Real
             };
+            let kind = if pdf {
+                plateau::output::Kind::Pdf
+            } else {
+                plateau::output::Kind::Csv(sheet::FIRST_COLUMN)
+            };
             if let Some(out) = &output {
-                if out.exists() && !force {
-                    return Err(Failure::Other(format!(
-                        "{} already exists\nhint: use --force to replace it",
-                        out.display()
-                    )));
-                }
+                plateau::output::check_file(out, kind, force)
+                    .map_err(|e| Failure::Other(e.to_string()))?;
             }
             if pdf {
                 let out = output
                     .as_deref()
                     .unwrap_or(std::path::Path::new("runsheet.pdf"));
-                let typst = typst::find(typst_path.as_deref())
-                    .map_err(|e| Failure::Typesetter(e.to_string()))?;
-                report::runsheet::write_pdf(&s, &design, levels, &typst, out).map_err(
+                let typst = find_typst(typst_path.as_deref(), typst_timeout)?;
+                report::runsheet::write_pdf(&s, &design, levels, &typst, out, force).map_err(
                     |e| match e {
                         report::ReportError::Typst(e) => Failure::Typesetter(e.to_string()),
                         other => Failure::Other(other.to_string()),
@@ -351,9 +384,8 @@ fn run(command: Command) -> Result<(), Failure> {
             let text = sheet::csv(&s, &design, levels);
             match output {
                 Some(out) => {
-                    std::fs::write(&out, text).map_err(|e| {
-                        Failure::Other(format!("failed to write {} ({e})", out.display()))
-                    })?;
+                    plateau::output::write_bytes(&out, kind, force, text.as_bytes())
+                        .map_err(|e| Failure::Other(e.to_string()))?;
                     eprintln!("ok  run sheet written to {}", out.display());
                 }
                 None => print!("{text}"),
@@ -459,9 +491,32 @@ fn run(command: Command) -> Result<(), Failure> {
             quiet,
             templates,
             typst: typst_path,
+            typst_timeout,
             no_pdf,
         } => {
-            let files = plateau::batch::discover(&studies)?;
+            let mut files = plateau::batch::discover(&studies)?;
+            let mut unique = std::collections::BTreeSet::new();
+            files.retain(|f| unique.insert(f.clone()));
+            if output.is_none() {
+                let clashes = plateau::batch::report_dir_clashes(&files);
+                if !clashes.is_empty() {
+                    let list: Vec<String> = clashes
+                        .iter()
+                        .map(|(a, b)| {
+                            format!(
+                                "{} and {} would both report to {}",
+                                a.display(),
+                                b.display(),
+                                report::default_dir(a).display()
+                            )
+                        })
+                        .collect();
+                    return Err(Failure::Other(format!(
+                        "failed to plan the report folders ({})\nhint: rename one study file of each pair, or report it alone with -o DIR",
+                        list.join("; ")
+                    )));
+                }
+            }
             if files.is_empty() {
                 return Err(Failure::Usage(
                     "no study files found (a study file is a .yaml file with a top-level `schema:` key)".into(),
@@ -476,10 +531,7 @@ fn run(command: Command) -> Result<(), Failure> {
             let typst = if no_pdf {
                 None
             } else {
-                Some(
-                    typst::find(typst_path.as_deref())
-                        .map_err(|e| Failure::Typesetter(e.to_string()))?,
-                )
+                Some(find_typst(typst_path.as_deref(), typst_timeout)?)
             };
             let options = report::Options {
                 out_dir: output,
@@ -526,6 +578,7 @@ fn run(command: Command) -> Result<(), Failure> {
             paths,
             templates,
             typst: typst_path,
+            typst_timeout,
         } => {
             let paths = if paths.is_empty() {
                 vec![PathBuf::from(".")]
@@ -533,7 +586,9 @@ fn run(command: Command) -> Result<(), Failure> {
                 paths
             };
             let files = plateau::batch::discover(&paths)?;
-            let typst_version = typst::find(typst_path.as_deref()).ok().map(|t| t.version);
+            let typst_version = find_typst(typst_path.as_deref(), typst_timeout)
+                .ok()
+                .map(|t| t.version);
             let mut not_current = 0;
             for file in &files {
                 let line = match plateau::study::load(file) {
@@ -544,12 +599,16 @@ fn run(command: Command) -> Result<(), Failure> {
                     ),
                     Ok(study) => {
                         let dir = report::default_dir(file);
-                        match plateau::batch::status(
-                            &study,
-                            &dir,
-                            templates.as_deref(),
-                            typst_version.as_deref(),
-                        ) {
+                        // A report made with --no-pdf records typst `none`: it is current when
+                        // its inputs are, whatever typst is installed now.
+                        let no_pdf =
+                            plateau::batch::recorded(&dir).is_some_and(|r| r.typst == "none");
+                        let version = if no_pdf {
+                            Some("none")
+                        } else {
+                            typst_version.as_deref()
+                        };
+                        match plateau::batch::status(&study, &dir, templates.as_deref(), version) {
                             plateau::batch::Status::Current => {
                                 format!("current  {}", file.display())
                             }
@@ -582,17 +641,15 @@ fn run(command: Command) -> Result<(), Failure> {
             json,
             date,
             typst: typst_path,
+            typst_timeout,
         } => {
             if let Some(d) = &date {
                 plateau::verify::check_date(d).map_err(Failure::Usage)?;
             }
             let typst = if json {
-                typst::find(typst_path.as_deref()).ok()
+                find_typst(typst_path.as_deref(), typst_timeout).ok()
             } else {
-                Some(
-                    typst::find(typst_path.as_deref())
-                        .map_err(|e| Failure::Typesetter(e.to_string()))?,
-                )
+                Some(find_typst(typst_path.as_deref(), typst_timeout)?)
             };
             let dir = output.unwrap_or_else(plateau::verify::default_dir);
             match plateau::verify::command(&dir, json, date, typst) {
@@ -615,6 +672,7 @@ fn run(command: Command) -> Result<(), Failure> {
             output,
             force,
             typst: typst_path,
+            typst_timeout,
         } => {
             let new_path = match (&new, &rev) {
                 (Some(n), _) => n.clone(),
@@ -625,17 +683,12 @@ fn run(command: Command) -> Result<(), Failure> {
                     ));
                 }
             };
-            if let Some(out) = output.as_ref().filter(|o| o.exists() && !force) {
-                return Err(Failure::Other(format!(
-                    "{} already exists\nhint: use --force to replace it",
-                    out.display()
-                )));
+            if let Some(out) = &output {
+                plateau::output::check_file(out, plateau::output::Kind::Pdf, force)
+                    .map_err(|e| Failure::Other(e.to_string()))?;
             }
             let typesetter = if pdf {
-                Some(
-                    typst::find(typst_path.as_deref())
-                        .map_err(|e| Failure::Typesetter(e.to_string()))?,
-                )
+                Some(find_typst(typst_path.as_deref(), typst_timeout)?)
             } else {
                 None
             };
@@ -665,7 +718,7 @@ fn run(command: Command) -> Result<(), Failure> {
                 let out = output
                     .as_deref()
                     .unwrap_or(std::path::Path::new("diff.pdf"));
-                plateau::diff::write_pdf(&d, &t, out).map_err(|e| match e {
+                plateau::diff::write_pdf(&d, &t, out, force).map_err(|e| match e {
                     report::ReportError::Typst(e) => Failure::Typesetter(e.to_string()),
                     other => Failure::Other(other.to_string()),
                 })?;

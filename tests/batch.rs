@@ -108,3 +108,121 @@ fn output_folder_with_several_studies_is_a_usage_error() {
         .arg_path(dir.path())
         .code(2);
 }
+
+#[test]
+fn study_yaml_and_study_yml_in_one_folder_are_refused_naming_both() {
+    let dir = tempfile::tempdir().unwrap();
+    let studies = dossier(dir.path());
+    let folder = studies[0].parent().unwrap();
+    std::fs::copy(&studies[0], folder.join("study.yml")).unwrap();
+    let run = plateau(&["report", "--no-pdf"])
+        .arg_path(dir.path())
+        .code(1);
+    assert!(run.stderr.contains("study.yaml"), "{}", run.stderr);
+    assert!(run.stderr.contains("study.yml "), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("would both report to"),
+        "{}",
+        run.stderr
+    );
+    assert!(!folder.join("study-report").exists());
+    // One at a time, the second cannot replace the first's report either.
+    plateau(&["report", "--no-pdf"]).arg_path(&studies[0]).ok();
+    let run = plateau(&["report", "--no-pdf", "--force"])
+        .arg_path(&folder.join("study.yml"))
+        .code(1);
+    assert!(
+        run.stderr.contains("it holds the report of study.yaml"),
+        "{}",
+        run.stderr
+    );
+}
+
+#[test]
+fn a_fifo_named_like_a_study_does_not_hang_the_search() {
+    let dir = tempfile::tempdir().unwrap();
+    let studies = dossier(dir.path());
+    let fifo = dir.path().join("pipe.yaml");
+    let made = std::process::Command::new("mkfifo")
+        .arg(&fifo)
+        .status()
+        .unwrap();
+    assert!(made.success());
+    // The search skips what is not a regular file: the three studies are found, and the run
+    // ends (a blocked open would hang here).
+    let run = plateau(&["status"]).arg_path(dir.path()).code(1);
+    assert_eq!(run.stdout.lines().count(), studies.len(), "{}", run.stdout);
+    plateau(&["report", "--no-pdf"]).arg_path(dir.path()).ok();
+    // Named directly, it is refused with a message.
+    let run = plateau(&["check"]).arg_path(&fifo).code(1);
+    assert!(run.stderr.contains("not a regular file"), "{}", run.stderr);
+}
+
+#[test]
+fn status_calls_a_no_pdf_report_current_and_tracks_included_templates() {
+    let dir = tempfile::tempdir().unwrap();
+    let studies = dossier(dir.path());
+    let study = &studies[0];
+    // A lab template folder whose section template includes another file.
+    let templates = dir.path().join("lab");
+    plateau(&["templates", "export"]).arg_path(&templates).ok();
+    let section = templates.join("section.typ.j2");
+    let text = std::fs::read_to_string(&section).unwrap();
+    std::fs::write(
+        &section,
+        format!("{{% include \"extra.typ.j2\" %}}\n{text}"),
+    )
+    .unwrap();
+    std::fs::write(templates.join("extra.typ.j2"), "// lab note one\n").unwrap();
+    plateau(&["report", "--no-pdf", "--templates"])
+        .arg_path(&templates)
+        .arg_path(study)
+        .ok();
+    // A typesetter is installed (a stub answering its version) but the report has no PDF by
+    // choice: it is current.
+    let stub = dir.path().join("typst");
+    std::fs::write(&stub, "#!/bin/sh\necho 'typst 0.15.1 (stub)'\n").unwrap();
+    common::make_executable(&stub);
+    let run = plateau(&["status", "--typst"])
+        .arg_path(&stub)
+        .arg("--templates")
+        .arg_path(&templates)
+        .arg_path(study)
+        .ok();
+    assert!(run.stdout.starts_with("current"), "{}", run.stdout);
+    std::fs::write(templates.join("extra.typ.j2"), "// lab note two\n").unwrap();
+    let run = plateau(&["status", "--templates"])
+        .arg_path(&templates)
+        .arg_path(study)
+        .code(1);
+    assert!(
+        run.stdout.contains("template extra.typ.j2 changed"),
+        "{}",
+        run.stdout
+    );
+}
+
+#[test]
+fn a_lab_template_importing_a_typst_package_is_refused_at_load() {
+    let dir = tempfile::tempdir().unwrap();
+    let studies = dossier(dir.path());
+    let templates = dir.path().join("lab");
+    plateau(&["templates", "export"]).arg_path(&templates).ok();
+    let section = templates.join("section.typ.j2");
+    let text = std::fs::read_to_string(&section).unwrap();
+    std::fs::write(
+        &section,
+        format!("#import \"@preview/cetz:0.3.0\": canvas\n{text}"),
+    )
+    .unwrap();
+    let run = plateau(&["report", "--no-pdf", "--templates"])
+        .arg_path(&templates)
+        .arg_path(&studies[0])
+        .code(1);
+    assert!(run.stderr.contains("@preview/cetz:0.3.0"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("cannot use typst packages"),
+        "{}",
+        run.stderr
+    );
+}

@@ -125,6 +125,7 @@ fn report_without_pdf_writes_the_documented_files_and_nothing_else() {
         .collect();
     names.sort();
     let mut expected: Vec<String> = [
+        ".plateau-output",
         "analysis.json",
         "effects-assay.csv",
         "effects-resolution.csv",
@@ -345,4 +346,50 @@ fn diff_of_a_rerun_lists_the_changed_effect_the_flipped_verdict_and_the_new_sent
             .stdout,
     );
     assert!(json["outputs"].is_object(), "{json}");
+}
+
+#[test]
+fn diff_rev_reads_a_study_with_a_logo_as_committed() {
+    let dir = tempfile::tempdir().unwrap();
+    let root = dir.path();
+    let git = |args: &[&str]| {
+        let out = std::process::Command::new("git")
+            .arg("-C")
+            .arg(root)
+            .args([
+                "-c",
+                "user.name=Test",
+                "-c",
+                "user.email=test@example.invalid",
+            ])
+            .args(["-c", "commit.gpgsign=false"])
+            .args(args)
+            .env("GIT_CONFIG_GLOBAL", "/dev/null")
+            .env("GIT_CONFIG_NOSYSTEM", "1")
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+    };
+    git(&["init", "-q"]);
+    for f in ["study.yaml", "results.csv"] {
+        std::fs::copy(example(&format!("hplc-assay/{f}")), root.join(f)).unwrap();
+    }
+    let study = root.join("study.yaml");
+    let mut text = std::fs::read_to_string(&study).unwrap();
+    text.push_str("\nreport:\n  logo: logo.svg\n");
+    std::fs::write(&study, &text).unwrap();
+    std::fs::write(
+        root.join("logo.svg"),
+        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"10\" height=\"10\"/>\n",
+    )
+    .unwrap();
+    git(&["add", "."]);
+    git(&["commit", "-q", "-m", "study with a logo"]);
+    std::fs::write(&study, text.replace("title:", "title: Revised")).unwrap();
+    let run = plateau(&["diff", "--rev", "HEAD"]).arg_path(&study).ok();
+    assert!(run.stdout.contains("Revised"), "{}", run.stdout);
 }

@@ -221,6 +221,17 @@ fn the_run_sheet_export_never_overwrites_without_force() {
         .code(1);
     assert!(run.stderr.contains("--force"), "{}", run.stderr);
     assert_eq!(std::fs::read_to_string(&out).unwrap(), "keep me");
+    // --force replaces only a run sheet plateau could have written.
+    plateau(&["design", "--force", "-o"])
+        .arg_path(&out)
+        .arg_path(&example("hplc-assay/study.yaml"))
+        .code(1);
+    assert_eq!(std::fs::read_to_string(&out).unwrap(), "keep me");
+    std::fs::remove_file(&out).unwrap();
+    plateau(&["design", "-o"])
+        .arg_path(&out)
+        .arg_path(&example("hplc-assay/study.yaml"))
+        .ok();
     plateau(&["design", "--force", "-o"])
         .arg_path(&out)
         .arg_path(&example("hplc-assay/study.yaml"))

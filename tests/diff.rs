@@ -416,7 +416,7 @@ fn the_change_summary_pdf_shows_the_flipped_verdict() {
     let new = version(&dir.path().join("new"), "results-rerun.csv");
     let d = diff_of(&old, &new).with_labels("first run", "re-run");
     let out = dir.path().join("change.pdf");
-    diff::write_pdf(&d, &typst, &out).unwrap();
+    diff::write_pdf(&d, &typst, &out, false).unwrap();
     let text = common::pdf_text(&out);
     assert!(text.contains("RS-2026-014"), "{text}");
     assert!(
@@ -457,6 +457,6 @@ fn the_change_summary_pdf_of_identical_files_says_no_changes() {
     let a = version(&dir.path().join("a"), "results.csv");
     let d = diff_of(&a, &a);
     let out = dir.path().join("same.pdf");
-    diff::write_pdf(&d, &typst, &out).unwrap();
+    diff::write_pdf(&d, &typst, &out, false).unwrap();
     assert!(common::pdf_text(&out).contains("No changes"));
 }

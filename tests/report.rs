@@ -199,6 +199,7 @@ fn the_report_folder_holds_the_pdf_sources_figures_tables_and_nothing_else() {
     let out = dir.path().join("r");
     report_pdf(&example(EXAMPLE), &out);
     let mut expected: Vec<String> = [
+        ".plateau-output",
         "analysis.json",
         "effects-assay.csv",
         "effects-resolution.csv",

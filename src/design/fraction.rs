@@ -32,6 +32,11 @@ impl Generator {
     }
 }
 
+/// Most generators of one fraction: the defining relation has 2^p − 1 words, all enumerated
+/// (a saturated 31-factor fraction, p = 26, took minutes and gigabytes); 16 generators build in
+/// well under a second.
+pub const MAX_GENERATORS: usize = 16;
+
 /// Why a generator or a set of generators cannot define a design.
 #[derive(Clone, PartialEq, Eq, Debug, Error)]
 pub enum GeneratorError {
@@ -57,6 +62,21 @@ pub enum GeneratorError {
         /// The valid ids with their letters, e.g. "temp (A), flow (B)".
         valid: String,
     },
+    /// Letters were written, but a factor id is a single capital letter other than its own
+    /// letter, so letters and ids could be confused.
+    #[error(
+        "`{name}` in generator `{text}` is not a factor id, and letters cannot be used here: the factor ids {ids} include single capital letters that are not the factors' own letters (A = first factor, B = second, …), so a letter could be read as the wrong factor; write factor ids joined by `*`, e.g. `{example}`"
+    )]
+    LettersAmbiguous {
+        /// The generator as written.
+        text: String,
+        /// The name read.
+        name: String,
+        /// The factor ids.
+        ids: String,
+        /// A generator written with ids.
+        example: String,
+    },
     /// A factor appears twice on the right side.
     #[error(
         "factor `{name}` appears twice on the right side of `{text}`; each factor may appear once (a repeated letter cancels)"
@@ -76,6 +96,16 @@ pub enum GeneratorError {
         text: String,
         /// The name on both sides.
         name: String,
+    },
+    /// More generators than the defining relation can be enumerated for in bounded time.
+    #[error(
+        "{p} generators give a defining relation of 2^{p} − 1 words; plateau builds fractions with at most {max} generators (2^{max} − 1 words, well under a second)\nhint: for many factors in few runs use kind plackett-burman (up to 63 factors in 64 runs)"
+    )]
+    TooManyGenerators {
+        /// Generators given.
+        p: usize,
+        /// The limit.
+        max: usize,
     },
     /// More factors than a word can hold.
     #[error("a design with {k} factors is not supported; at most {max} factors")]
@@ -171,12 +201,32 @@ fn valid_names(factor_ids: &[&str]) -> String {
 }
 
 /// Resolves one token: as a factor id first, then (single capital letter) as a letter.
+/// Whether generators may be written with letters (A = first factor, B = second, …): only
+/// when no factor id is a single capital letter other than that factor's own letter. With ids
+/// such as `T, P, F, A, W` the letter A (first factor) and the id A (fourth) would clash, so
+/// there generators must name ids joined by `*` or `×`.
+pub fn letters_allowed(factor_ids: &[&str]) -> bool {
+    factor_ids.iter().enumerate().all(|(i, id)| {
+        let mut chars = id.chars();
+        match (chars.next(), chars.next()) {
+            (Some(c), None) if c.is_ascii_uppercase() => letter_index(c) == Some(i),
+            _ => true,
+        }
+    })
+}
+
 fn lookup(token: &str, factor_ids: &[&str], text: &str) -> Result<usize, GeneratorError> {
     if let Some(i) = factor_ids.iter().position(|id| *id == token) {
         return Ok(i);
     }
     let mut chars = token.chars();
-    if let (Some(c), None) = (chars.next(), chars.next())
+    let single = matches!((chars.next(), chars.next()), (Some(_), None));
+    if !letters_allowed(factor_ids) {
+        if single || token.chars().all(|c| c.is_ascii_uppercase()) {
+            return Err(ambiguous(token, factor_ids, text));
+        }
+    } else if single
+        && let Some(c) = token.chars().next()
         && let Some(i) = letter_index(c)
         && i < factor_ids.len()
     {
@@ -189,13 +239,27 @@ fn lookup(token: &str, factor_ids: &[&str], text: &str) -> Result<usize, Generat
     })
 }
 
+fn ambiguous(token: &str, factor_ids: &[&str], text: &str) -> GeneratorError {
+    let example = match factor_ids {
+        [a, b, .., last] => format!("{last} = {a}*{b}"),
+        _ => "lot = temp*flow".to_string(),
+    };
+    GeneratorError::LettersAmbiguous {
+        text: text.to_string(),
+        name: token.to_string(),
+        ids: factor_ids.join(", "),
+        example,
+    }
+}
+
 /// Reads one generator written with letters or with factor ids.
 ///
 /// Accepted forms: `"E = ABCD"`, `"E=-ABCD"`, `"E = −ABCD"` (each capital letter is one
 /// factor in file order, letters skip I as in the NIST/SEMATECH e-Handbook §5.3.3.4.7), and
 /// `"lot = temp*flow*ph"` (ids joined by `*` or `×`, optional leading `-`/`−`). The right side
 /// is read as letters when it has no `*`/`×` and consists of capital letters only; otherwise as
-/// ids. A single-letter token is looked up as an id first, then as a letter. Spaces are
+/// ids. Letters are accepted only when [`letters_allowed`]; otherwise a name that is not a
+/// factor id, or a run of capitals that is not one id, is an error, never a guess. Spaces are
 /// ignored.
 pub fn parse_generator(text: &str, factor_ids: &[&str]) -> Result<Generator, GeneratorError> {
     let syntax = |reason: &str| GeneratorError::Syntax {
@@ -229,7 +293,13 @@ pub fn parse_generator(text: &str, factor_ids: &[&str]) -> Result<Generator, Gen
         tokens
     } else {
         let compact: String = body.chars().filter(|c| !c.is_whitespace()).collect();
-        if compact.chars().all(|c| c.is_ascii_uppercase()) {
+        let letters = letters_allowed(factor_ids);
+        if factor_ids.contains(&compact.as_str()) && (!letters || compact.chars().count() == 1) {
+            vec![compact]
+        } else if compact.chars().all(|c| c.is_ascii_uppercase()) {
+            if !letters {
+                return Err(ambiguous(&compact, factor_ids, text));
+            }
             compact.chars().map(String::from).collect()
         } else {
             vec![body.to_string()]
@@ -328,6 +398,12 @@ impl Fraction {
                 });
             }
             generated = generated.times(Word::single(g.factor));
+        }
+        if generators.len() > MAX_GENERATORS {
+            return Err(GeneratorError::TooManyGenerators {
+                p: generators.len(),
+                max: MAX_GENERATORS,
+            });
         }
         if generators.len() >= k && k > 0 {
             return Err(GeneratorError::NoBase {
@@ -742,6 +818,25 @@ mod tests {
     use super::super::aliasing::chains_by_brute_force;
     use super::super::word::letters;
     use super::*;
+
+    #[test]
+    fn letters_are_refused_when_a_single_capital_id_is_not_its_own_letter() {
+        // The red-team case of issue 13: ids T, P, F, A, W; `E = ABC` once took A as the id A.
+        let ids = ["T", "P", "F", "A", "W"];
+        assert!(!letters_allowed(&ids));
+        assert!(matches!(
+            parse_generator("E = ABC", &ids),
+            Err(GeneratorError::LettersAmbiguous { .. })
+        ));
+        assert!(matches!(
+            parse_generator("W = TPF", &ids),
+            Err(GeneratorError::LettersAmbiguous { .. })
+        ));
+        let g = parse_generator("W = T*P*F", &ids).unwrap();
+        assert_eq!(g.factor, 4);
+        assert!(letters_allowed(&["A", "B", "temp"]));
+        assert!(letters_allowed(&["temp", "ph", "flow"]));
+    }
     use proptest::prelude::*;
 
     const LETTER_IDS: [&str; 15] = [

@@ -14,9 +14,12 @@ pub enum Levels {
     Coded,
 }
 
+/// The first header cell of the run sheet (how `--force` recognises an earlier sheet).
+pub const FIRST_COLUMN: &str = "run";
+
 /// The header and rows of the run sheet, in run order.
 pub fn rows(study: &Study, design: &Design, levels: Levels) -> (Vec<String>, Vec<Vec<String>>) {
-    let mut header = vec!["run".to_string(), "order".to_string()];
+    let mut header = vec![FIRST_COLUMN.to_string(), "order".to_string()];
     header.extend(study.factors.iter().map(|f| f.id.clone()));
     header.extend(study.responses.iter().map(|r| r.id.clone()));
     let rows = design
@@ -43,12 +46,6 @@ pub fn rows(study: &Study, design: &Design, levels: Levels) -> (Vec<String>, Vec
 /// The run sheet as CSV text.
 pub fn csv(study: &Study, design: &Design, levels: Levels) -> String {
     let (header, rows) = rows(study, design, levels);
-    let mut w = csv::WriterBuilder::new()
-        .terminator(csv::Terminator::Any(b'\n'))
-        .from_writer(Vec::new());
-    let _ = w.write_record(&header);
-    for row in &rows {
-        let _ = w.write_record(row);
-    }
-    String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
+    // Every cell made safe for a spreadsheet (the results reader undoes it).
+    String::from_utf8(crate::output::csv_bytes(&header, &rows)).unwrap_or_default()
 }

@@ -330,30 +330,44 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
     let study_path = write_copy(&folder.0, &repo_path, &bytes)?;
     let text = String::from_utf8_lossy(&bytes).to_string();
 
+    // The files the study names (results, logo) are copied from the same commit. The study is
+    // only parsed here, not checked: the check needs those files in place (a logo named by
+    // the study was once missing from the copy, so the revision failed to load).
     let mut data_path = None;
-    if let Ok(study) = crate::study::load(&study_path)
-        && let Some(data) = study.results.as_ref().and_then(|r| r.file.as_ref())
-    {
-        if Path::new(data).is_absolute() {
-            return Err(DiffError::AbsoluteResults {
-                file: data.clone(),
-                study: repo_path,
-                rev: rev.to_string(),
-            });
+    if let Ok(parsed) = crate::study::load::parse(
+        &crate::study::load::decode(&bytes, &repo_path).unwrap_or_default(),
+        &repo_path,
+    ) {
+        let data = parsed.results.as_ref().and_then(|r| r.file.clone());
+        let logo = parsed.report.as_ref().and_then(|r| r.logo.clone());
+        for (file, is_data) in [(data, true), (logo, false)] {
+            let Some(file) = file else { continue };
+            if Path::new(&file).is_absolute() {
+                if is_data {
+                    return Err(DiffError::AbsoluteResults {
+                        file,
+                        study: repo_path,
+                        rev: rev.to_string(),
+                    });
+                }
+                continue; // the check of the copy names the logo
+            }
+            let study_dir = Path::new(&repo_path)
+                .parent()
+                .unwrap_or_else(|| Path::new(""));
+            let in_repo =
+                normalise(&study_dir.join(&file)).ok_or_else(|| DiffError::OutsideRepository {
+                    file: file.clone(),
+                    study: repo_path.clone(),
+                    rev: rev.to_string(),
+                    repo: root.display().to_string(),
+                })?;
+            let bytes = blob(&root, rev, &commit, &in_repo)?;
+            write_copy(&folder.0, &in_repo, &bytes)?;
+            if is_data {
+                data_path = Some(in_repo);
+            }
         }
-        let study_dir = Path::new(&repo_path)
-            .parent()
-            .unwrap_or_else(|| Path::new(""));
-        let data_file =
-            normalise(&study_dir.join(data)).ok_or_else(|| DiffError::OutsideRepository {
-                file: data.clone(),
-                study: repo_path.clone(),
-                rev: rev.to_string(),
-                repo: root.display().to_string(),
-            })?;
-        let bytes = blob(&root, rev, &commit, &data_file)?;
-        write_copy(&folder.0, &data_file, &bytes)?;
-        data_path = Some(data_file);
     }
 
     Ok(Revision {

@@ -1,7 +1,7 @@
 //! The change summary as a short PDF a reviewer can attach to a re-approval, typeset with the
 //! same sandboxed typst call as the report.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use serde::Serialize;
 
@@ -52,9 +52,15 @@ fn write_error(path: &Path, e: impl std::fmt::Display) -> ReportError {
 /// conclusions must be reviewed and approved by qualified staff, and empty signature lines.
 ///
 /// The source is rendered from `diff.typ.j2` (all study text escaped) and compiled in a
-/// staging folder beside `out`, then renamed, so a failed run never leaves a partial PDF.
+/// staging folder beside `out` by the output writer, then renamed, so a failed run never leaves
+/// a partial PDF; an existing `out` is replaced only with `force` and only if it is a PDF.
 /// The PDF's creation date is the new version's study date.
-pub fn write_pdf(diff: &StudyDiff, typst: &typst::Typst, out: &Path) -> Result<(), ReportError> {
+pub fn write_pdf(
+    diff: &StudyDiff,
+    typst: &typst::Typst,
+    out: &Path,
+    force: bool,
+) -> Result<(), ReportError> {
     let ctx = Context {
         id: diff.new.id.clone(),
         title: diff.new.title.clone(),
@@ -69,25 +75,9 @@ pub fn write_pdf(diff: &StudyDiff, typst: &typst::Typst, out: &Path) -> Result<(
         "diff.typ.j2",
         minijinja::Value::from(minijinja::value::Serde(&ctx)),
     )?;
-    let work = staging_folder(out)?;
-    let result = (|| {
-        std::fs::write(work.join("diff.typ"), source).map_err(|e| write_error(&work, e))?;
-        let packages = work.join(".no-packages");
-        std::fs::create_dir_all(&packages).map_err(|e| write_error(&packages, e))?;
-        let stamp = typst::unix_midnight(&diff.new.date).unwrap_or(0);
-        typst.compile(&work, "diff.typ", "diff.pdf", stamp, &packages)?;
-        std::fs::rename(work.join("diff.pdf"), out).map_err(|e| write_error(out, e))
-    })();
-    let _ = std::fs::remove_dir_all(&work);
-    result
-}
-
-fn staging_folder(out: &Path) -> Result<PathBuf, ReportError> {
-    let parent = out
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .unwrap_or_else(|| Path::new("."));
-    let dir = parent.join(format!(".diff.partial-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).map_err(|e| write_error(&dir, e))?;
-    Ok(dir)
+    crate::output::write_file(out, crate::output::Kind::Pdf, force, |work| {
+        std::fs::write(work.join("diff.typ"), source).map_err(|e| write_error(work, e))?;
+        crate::report::typeset(typst, work, "diff.typ", "diff.pdf", &diff.new.date)?;
+        Ok::<_, ReportError>(work.join("diff.pdf"))
+    })
 }

@@ -10,12 +10,19 @@ const SPECIAL: &[char] = &[
     '\\', '#', '$', '*', '_', '`', '<', '>', '@', '[', ']', '~', '/', '=', '-', '+', '.', '"', '\'',
 ];
 
+/// Characters Typst reads as a line break (typst-syntax `is_newline`: LF, VT, FF, CR, NEL,
+/// U+2028, U+2029) and every other control character: in markup each becomes a space, so no
+/// text can end a line and start a heading, a list or a term.
+fn breaks_or_controls(c: char) -> bool {
+    c.is_control() || matches!(c, '\u{2028}' | '\u{2029}')
+}
+
 /// Text escaped for Typst markup: printed literally, on one line.
 pub fn markup(text: &str) -> String {
     let mut out = String::with_capacity(text.len() + text.len() / 4);
     for c in text.chars() {
         match c {
-            '\n' | '\r' | '\t' => out.push(' '),
+            c if breaks_or_controls(c) => out.push(' '),
             c if SPECIAL.contains(&c) => {
                 out.push('\\');
                 out.push(c);
@@ -36,6 +43,7 @@ pub fn string_literal(text: &str) -> String {
             '\n' => out.push_str("\\n"),
             '\r' => out.push_str("\\r"),
             '\t' => out.push_str("\\t"),
+            c if breaks_or_controls(c) => out.push_str(&format!("\\u{{{:x}}}", u32::from(c))),
             c => out.push(c),
         }
     }
@@ -56,6 +64,16 @@ mod tests {
     #[test]
     fn line_breaks_become_spaces_so_no_heading_or_list_can_start() {
         assert_eq!(markup("a\n= b\n- c"), "a \\= b \\- c");
+    }
+
+    #[test]
+    fn every_character_typst_reads_as_a_line_break_becomes_a_space() {
+        for sep in [
+            '\u{000B}', '\u{000C}', '\u{0085}', '\u{2028}', '\u{2029}', '\u{0001}',
+        ] {
+            assert_eq!(markup(&format!("a{sep}= b")), "a \\= b", "{sep:?}");
+        }
+        assert_eq!(string_literal("a\u{2028}b"), "a\\u{2028}b");
     }
 
     #[test]

@@ -173,7 +173,7 @@ fn csv_number(x: f64) -> String {
 
 fn csv_of(header: &[&str], rows: &[Vec<String>]) -> Vec<u8> {
     let header: Vec<String> = header.iter().map(|h| h.to_string()).collect();
-    super::tables::csv_bytes(&header, rows)
+    crate::output::csv_bytes(&header, rows)
 }
 
 /// The vertical reference lines of the half-normal plot of one response, in the response's

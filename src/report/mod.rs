@@ -1,9 +1,10 @@
 //! The report: template context, Typst source, tables, analysis JSON and the typeset PDF, written
 //! as one folder.
 //!
-//! Renderers return bytes; `write` is the one place that touches the file system. The folder is
-//! assembled under a temporary name beside its destination and renamed into place only when
-//! every file (the PDF included) is complete, so a failure leaves the previous report intact.
+//! Renderers return bytes; `write` hands them to [`crate::output`], the one writer of folders:
+//! it refuses a destination that is not an earlier report, assembles the folder under a unique
+//! temporary name, and renames it into place only when every file (the PDF included, checked to
+//! be a PDF) is complete, so a failure leaves the previous report intact.
 
 pub mod conclusion;
 pub mod context;
@@ -54,6 +55,9 @@ pub enum ReportError {
         /// The path.
         path: String,
     },
+    /// The destination was refused, or could not be written.
+    #[error(transparent)]
+    Output(#[from] crate::output::OutputError),
     /// A file could not be written.
     #[error("failed to write {path} ({cause})")]
     Write {
@@ -147,83 +151,63 @@ pub fn render_files(
 
 /// Writes the report folder and returns its path.
 pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, ReportError> {
-    let files = render_files(evaluated, options)?;
     let dest = options
         .out_dir
         .clone()
         .unwrap_or_else(|| default_dir(&evaluated.study.path));
-    let parent = dest
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .map(Path::to_path_buf)
-        .unwrap_or_else(|| PathBuf::from("."));
-    let name = dest
+    let own = evaluated
+        .study
+        .path
         .file_name()
         .map(|n| n.to_string_lossy().to_string())
-        .unwrap_or_else(|| "report".into());
-    std::fs::create_dir_all(&parent).map_err(|e| ReportError::write(&parent, e))?;
-    remove_leftovers(&parent, &name);
-    let staging = parent.join(format!(".{name}.partial-{}", std::process::id()));
-    let result = (|| {
-        if staging.exists() {
-            std::fs::remove_dir_all(&staging).map_err(|e| ReportError::write(&staging, e))?;
+        .unwrap_or_default();
+    if let Some(other) = crate::batch::recorded(&dest).filter(|r| r.study.0 != own) {
+        return Err(crate::output::OutputError::Occupied {
+            path: dest.display().to_string(),
+            why: format!(
+                "it holds the report of {}, not of {own}; one would replace the other",
+                other.study.0
+            ),
+            hint: "give this study its own folder with -o DIR, or rename one of the study files"
+                .into(),
         }
-        std::fs::create_dir(&staging).map_err(|e| ReportError::write(&staging, e))?;
-        for (file, bytes) in &files {
-            let path = staging.join(file);
-            std::fs::write(&path, bytes).map_err(|e| ReportError::write(&path, e))?;
-        }
+        .into());
+    }
+    let files = render_files(evaluated, options)?;
+    crate::output::write_folder(&dest, "report folder", &files, |staging| {
         if let Some(typst) = &options.typst {
-            let packages = parent.join(format!(".{name}.no-packages-{}", std::process::id()));
-            std::fs::create_dir_all(&packages).map_err(|e| ReportError::write(&packages, e))?;
-            let stamp = typst::unix_midnight(&evaluated.study.info.date).unwrap_or(0);
-            let compiled = typst.compile(&staging, "report.typ", "report.pdf", stamp, &packages);
-            let _ = std::fs::remove_dir_all(&packages);
-            compiled?;
+            typeset(
+                typst,
+                staging,
+                "report.typ",
+                "report.pdf",
+                &evaluated.study.info.date,
+            )?;
         }
-        replace_dir(&staging, &dest)
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_dir_all(&staging);
-    }
-    result.map(|()| dest)
+        Ok::<(), ReportError>(())
+    })?;
+    Ok(dest)
 }
 
-/// Removes staging folders a killed run left behind (`.<name>.partial-*`, `.<name>.old-*`),
-/// so they never accumulate; the report folder itself is never touched here.
-fn remove_leftovers(parent: &Path, name: &str) {
-    let Ok(entries) = std::fs::read_dir(parent) else {
-        return;
-    };
-    for entry in entries.flatten() {
-        let file = entry.file_name().to_string_lossy().to_string();
-        let ours = [".partial-", ".no-packages-", ".old-"]
-            .iter()
-            .any(|tag| file.starts_with(&format!(".{name}{tag}")));
-        if ours && entry.path().is_dir() {
-            let _ = std::fs::remove_dir_all(entry.path());
-        }
-    }
-}
+/// Name of the empty package folder given to typst inside the staging folder (removed after
+/// the compile, so it never reaches the output).
+pub const NO_PACKAGES: &str = ".plateau-no-packages";
 
-/// Moves `staging` to `dest`, replacing an existing report only after the new one is complete.
-fn replace_dir(staging: &Path, dest: &Path) -> Result<(), ReportError> {
-    if dest.exists() {
-        let old = dest.with_file_name(format!(
-            ".{}.old-{}",
-            dest.file_name()
-                .map(|n| n.to_string_lossy().to_string())
-                .unwrap_or_default(),
-            std::process::id()
-        ));
-        std::fs::rename(dest, &old).map_err(|e| ReportError::write(dest, e))?;
-        if let Err(e) = std::fs::rename(staging, dest) {
-            let _ = std::fs::rename(&old, dest);
-            return Err(ReportError::write(dest, e));
-        }
-        let _ = std::fs::remove_dir_all(&old);
-        Ok(())
-    } else {
-        std::fs::rename(staging, dest).map_err(|e| ReportError::write(dest, e))
-    }
+/// Compiles `dir/input` to `dir/output` with an empty package folder inside `dir` (so a
+/// template can never download a package; removed afterwards) and the study date as the PDF's
+/// creation date.
+pub fn typeset(
+    typst: &typst::Typst,
+    dir: &Path,
+    input: &str,
+    output: &str,
+    date: &str,
+) -> Result<(), ReportError> {
+    let packages = dir.join(NO_PACKAGES);
+    std::fs::create_dir(&packages).map_err(|e| ReportError::write(&packages, e))?;
+    let stamp = typst::creation_timestamp(date);
+    let compiled = typst.compile(dir, input, output, stamp, &packages);
+    std::fs::remove_dir(&packages).map_err(|e| ReportError::write(&packages, e))?;
+    compiled?;
+    Ok(())
 }

@@ -124,6 +124,73 @@ pub fn export_templates(dir: &Path) -> Result<Vec<PathBuf>, ReportError> {
     Ok(written)
 }
 
+/// Largest lab template read (bytes).
+pub const MAX_TEMPLATE_BYTES: u64 = 1024 * 1024;
+
+/// Reads the lab template `name` from `dir`: only a plain relative name, only a regular file,
+/// at most [`MAX_TEMPLATE_BYTES`], and never one that imports a typst package (`"@preview/…"`):
+/// the report is typeset with an empty package folder, so the import could only fail in typst
+/// (or, without that guard, download code).
+fn load_lab_template(dir: &Path, name: &str) -> Result<Option<String>, minijinja::Error> {
+    let invalid = |msg: String| minijinja::Error::new(minijinja::ErrorKind::InvalidOperation, msg);
+    let relative = Path::new(name);
+    if relative.is_absolute()
+        || relative
+            .components()
+            .any(|c| !matches!(c, std::path::Component::Normal(_)))
+    {
+        return Ok(None);
+    }
+    let path = dir.join(relative);
+    let Ok(meta) = std::fs::metadata(&path) else {
+        return Ok(None);
+    };
+    if !meta.is_file() {
+        return Err(invalid(format!(
+            "{} is not a regular file; expected a template file",
+            path.display()
+        )));
+    }
+    let mut text = String::new();
+    std::fs::File::open(&path)
+        .and_then(|f| {
+            std::io::Read::read_to_string(
+                &mut std::io::Read::take(f, MAX_TEMPLATE_BYTES + 1),
+                &mut text,
+            )
+        })
+        .map_err(|e| invalid(format!("failed to read {} ({e})", path.display())))?;
+    if text.len() as u64 > MAX_TEMPLATE_BYTES {
+        return Err(invalid(format!(
+            "{} is larger than {MAX_TEMPLATE_BYTES} bytes; expected a template file",
+            path.display()
+        )));
+    }
+    if let Some(package) = package_import(&text) {
+        return Err(invalid(format!(
+            "{} imports the typst package `{package}`; lab templates cannot use typst packages (the report is typeset offline with no packages); copy what you need into the template",
+            path.display()
+        )));
+    }
+    Ok(Some(text))
+}
+
+/// The first typst package a template names (`"@namespace/name:version"`), if any.
+pub fn package_import(text: &str) -> Option<String> {
+    text.match_indices("\"@").find_map(|(i, _)| {
+        let rest = &text[i + 2..];
+        let end = rest.find('"').unwrap_or(rest.len());
+        let spec = &rest[..end];
+        let namespace = spec.split('/').next().unwrap_or_default();
+        (spec.contains('/')
+            && !namespace.is_empty()
+            && namespace
+                .chars()
+                .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_'))
+        .then(|| format!("@{spec}"))
+    })
+}
+
 /// The template environment: the user's folder first (if any), then the built-in templates.
 pub fn environment(user_dir: Option<&Path>) -> Environment<'static> {
     let mut env = Environment::new();
@@ -137,12 +204,12 @@ pub fn environment(user_dir: Option<&Path>) -> Environment<'static> {
     {
         env.set_syntax(syntax);
     }
-    let user = user_dir.map(minijinja::path_loader);
+    let user = user_dir.map(Path::to_path_buf);
     env.set_loader(move |name| {
-        if let Some(load) = &user
-            && let Some(source) = load(name)?
+        if let Some(dir) = &user
+            && let Some(source) = load_lab_template(dir, name)?
         {
-            return Ok(Some(source));
+            return Ok(Some(minijinja::TemplateSource::from(source)));
         }
         Ok(BUILT_IN
             .iter()

@@ -22,13 +22,15 @@ struct SheetContext {
     rows: Vec<Vec<String>>,
 }
 
-/// Typesets the run sheet to `out` (a PDF file).
+/// Typesets the run sheet to `out` (a PDF file), through the output writer: an existing `out`
+/// is replaced only with `force` and only if it is a PDF.
 pub fn write_pdf(
     study: &Study,
     design: &Design,
     levels: sheet::Levels,
     typst: &typst::Typst,
     out: &Path,
+    force: bool,
 ) -> Result<(), ReportError> {
     let (header, rows) = sheet::rows(study, design, levels);
     let ctx = SheetContext {
@@ -55,26 +57,16 @@ pub fn write_pdf(
         "runsheet.typ.j2",
         minijinja::Value::from(minijinja::value::Serde(&ctx)),
     )?;
-    let work = tempdir_near(out)?;
-    let result = (|| {
+    crate::output::write_file(out, crate::output::Kind::Pdf, force, |work| {
         std::fs::write(work.join("runsheet.typ"), source)
-            .map_err(|e| ReportError::write(&work, e))?;
-        let packages = work.join(".no-packages");
-        std::fs::create_dir_all(&packages).map_err(|e| ReportError::write(&packages, e))?;
-        let stamp = typst::unix_midnight(&study.info.date).unwrap_or(0);
-        typst.compile(&work, "runsheet.typ", "runsheet.pdf", stamp, &packages)?;
-        std::fs::rename(work.join("runsheet.pdf"), out).map_err(|e| ReportError::write(out, e))
-    })();
-    let _ = std::fs::remove_dir_all(&work);
-    result
-}
-
-fn tempdir_near(out: &Path) -> Result<std::path::PathBuf, ReportError> {
-    let parent = out
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .unwrap_or_else(|| Path::new("."));
-    let dir = parent.join(format!(".runsheet.partial-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).map_err(|e| ReportError::write(&dir, e))?;
-    Ok(dir)
+            .map_err(|e| ReportError::write(work, e))?;
+        super::typeset(
+            typst,
+            work,
+            "runsheet.typ",
+            "runsheet.pdf",
+            &study.info.date,
+        )?;
+        Ok::<_, ReportError>(work.join("runsheet.pdf"))
+    })
 }

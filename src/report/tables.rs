@@ -4,17 +4,7 @@
 use crate::pipeline::Evaluated;
 use crate::study::{Levels, Setting};
 
-/// The one CSV writer of the report: `\n` line ends, quoting where needed.
-pub(crate) fn csv_bytes(header: &[String], rows: &[Vec<String>]) -> Vec<u8> {
-    let mut w = csv::WriterBuilder::new()
-        .terminator(csv::Terminator::Any(b'\n'))
-        .from_writer(Vec::new());
-    let _ = w.write_record(header);
-    for row in rows {
-        let _ = w.write_record(row);
-    }
-    w.into_inner().unwrap_or_default()
-}
+use crate::output::csv_bytes;
 
 /// `factors.csv`, `runs.csv` and one `effects-<response>.csv` per response.
 pub fn csv_files(evaluated: &Evaluated) -> Vec<(String, Vec<u8>)> {

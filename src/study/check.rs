@@ -62,19 +62,15 @@ pub fn study(
     let excluded = exclusions(&mut c, &file.excluded);
     if let Some(logo) = file.report.as_ref().and_then(|r| r.logo.as_ref()) {
         let full = path.parent().unwrap_or_else(|| Path::new(".")).join(logo);
-        let size = std::fs::metadata(&full).map(|m| m.len());
-        match size {
-            Err(_) => c.report(
+        if let Err(why) = check_logo(&full) {
+            c.report(
                 &FieldPath::of(&["report", "logo"]),
-                format!("the logo `{logo}` cannot be read"),
-                Some(format!("expected an image file at {}", full.display())),
-            ),
-            Ok(n) if n > 2 * 1024 * 1024 => c.report(
-                &FieldPath::of(&["report", "logo"]),
-                format!("the logo is {n} bytes"),
-                Some("expected at most 2 MiB".into()),
-            ),
-            Ok(_) => {}
+                format!("the logo `{logo}` {why}"),
+                Some(format!(
+                    "expected a PNG, JPEG or SVG image file of at most 2 MiB at {}",
+                    full.display()
+                )),
+            );
         }
     }
     if file.study.source_reference.is_some()
@@ -90,6 +86,9 @@ pub fn study(
         check_results_spec(&mut c, results);
     }
     check_id_clashes(&mut c, &file);
+    if let Ok(tree) = serde_json::to_value(&file) {
+        check_printable(&mut c, &tree, &FieldPath::root());
+    }
     if !c.problems.is_empty() {
         return Err(c.problems.sorted());
     }
@@ -747,8 +746,13 @@ fn explicit_runs(
     let mut out = Vec::new();
     for (i, row) in rows.iter().enumerate() {
         let here = at.index(i);
-        let Some(id) = row.get("run").and_then(run_id) else {
-            continue; // the schema has reported it
+        let id = match row.get("run").map(run_id) {
+            Some(Ok(id)) => id,
+            Some(Err(why)) => {
+                c.report(&here.key("run"), why, None);
+                continue;
+            }
+            None => continue, // the schema has reported it
         };
         if !seen.insert(id.clone()) {
             c.report(
@@ -847,12 +851,107 @@ fn tidy(x: f64) -> f64 {
     (x * scale).round() / scale
 }
 
-/// The run id of a YAML value: integers keep their decimal text.
-pub fn run_id(v: &Value) -> Option<RunId> {
+/// Refuses any text in the study the report fonts cannot print (CJK, emoji, control
+/// characters...), naming the field, so that what `check` accepts `report` typesets.
+fn check_printable(c: &mut Checker<'_>, value: &Value, at: &FieldPath) {
+    match value {
+        Value::String(text) => {
+            if let Some(ch) = super::glyphs::first_unprintable(text) {
+                let shown = if ch.is_control() {
+                    format!("U+{:04X} (a control character)", u32::from(ch))
+                } else {
+                    format!("`{ch}` (U+{:04X})", u32::from(ch))
+                };
+                c.report(
+                    at,
+                    format!("the character {shown} cannot be printed in the report"),
+                    Some("expected characters the report fonts have: Latin, Greek, Cyrillic, Hebrew, Armenian, punctuation, units and mathematical signs; write the text without it".into()),
+                );
+            }
+        }
+        Value::Array(items) => {
+            for (i, item) in items.iter().enumerate() {
+                check_printable(c, item, &at.index(i));
+            }
+        }
+        Value::Object(map) => {
+            for (key, item) in map {
+                check_printable(c, item, &at.key(key));
+            }
+        }
+        _ => {}
+    }
+}
+
+/// Largest logo accepted (bytes).
+pub const MAX_LOGO_BYTES: u64 = 2 * 1024 * 1024;
+
+/// Checks that a logo is a regular file of at most [`MAX_LOGO_BYTES`] whose first bytes are a
+/// PNG or JPEG signature or SVG markup, the formats typst embeds; `Err` says what is wrong.
+/// Only regular files are opened: a FIFO would block and a device such as /dev/zero never ends.
+pub fn check_logo(path: &Path) -> Result<(), String> {
+    let meta = std::fs::metadata(path).map_err(|_| "cannot be read".to_string())?;
+    if !meta.is_file() {
+        return Err("is not a regular file (a folder, pipe or device)".into());
+    }
+    if meta.len() > MAX_LOGO_BYTES {
+        return Err(format!("is {} bytes", meta.len()));
+    }
+    let mut head = Vec::new();
+    std::fs::File::open(path)
+        .and_then(|f| std::io::Read::read_to_end(&mut std::io::Read::take(f, 512), &mut head))
+        .map_err(|_| "cannot be read".to_string())?;
+    if image_kind(&head).is_none() {
+        return Err("is not a PNG, JPEG or SVG image (judged by its first bytes)".into());
+    }
+    Ok(())
+}
+
+/// The image format of a file from its first bytes: PNG (RFC 2083 signature), JPEG (SOI
+/// marker FF D8 FF) or SVG (XML or `<svg` text; common practice).
+pub fn image_kind(head: &[u8]) -> Option<&'static str> {
+    if head.starts_with(b"\x89PNG\r\n\x1a\n") {
+        return Some("png");
+    }
+    if head.starts_with(&[0xFF, 0xD8, 0xFF]) {
+        return Some("jpeg");
+    }
+    let text = String::from_utf8_lossy(head);
+    let text = text.trim_start_matches('\u{feff}').trim_start();
+    if text.starts_with("<svg")
+        || (text.starts_with("<?xml") || text.starts_with("<!--")) && text.contains("<svg")
+    {
+        return Some("svg");
+    }
+    None
+}
+
+/// The run id of a YAML value in its one canonical form, so that `7`, `7.0`, `"7"` and
+/// `" 7 "` are one id (see [`RunId::canonical`]); `Err` says what is wrong with a blank,
+/// non-integral, out-of-range or non-scalar id, for a message naming the field.
+pub fn run_id(v: &Value) -> Result<RunId, String> {
     match v {
-        Value::Number(n) => n.as_i64().map(|i| RunId(i.to_string())),
-        Value::String(s) if !s.trim().is_empty() => Some(RunId(s.trim().to_string())),
-        _ => None,
+        Value::Number(n) => {
+            if let Some(i) = n.as_i64() {
+                return Ok(RunId(i.to_string()));
+            }
+            match n.as_f64() {
+                Some(f) if f.abs() < 9.0e15 && f.fract() == 0.0 => {
+                    Ok(RunId((f as i64).to_string()))
+                }
+                Some(f) if f.abs() < 9.0e15 => Err(format!(
+                    "run id `{n}` is not a whole number (expected a whole number, or text)"
+                )),
+                _ => Err(format!(
+                    "run id `{n}` is out of range (expected a whole number below 9,000,000,000,000,000, or text)"
+                )),
+            }
+        }
+        Value::String(s) if !s.trim().is_empty() => Ok(RunId::canonical(s)),
+        Value::String(_) | Value::Null => {
+            Err("the run id is blank (expected a whole number, or text)".into())
+        }
+        _ => Err("the run id is not a number or text (expected a whole number, or text)".into()),
     }
 }
 
@@ -1163,7 +1262,13 @@ fn exclusions(c: &mut Checker<'_>, specs: &[model::ExclusionSpec]) -> Vec<super:
     let mut out = Vec::new();
     for (i, e) in specs.iter().enumerate() {
         let at = FieldPath::of(&["excluded"]).index(i);
-        let Some(run) = run_id(&e.run) else { continue };
+        let run = match run_id(&e.run) {
+            Ok(run) => run,
+            Err(why) => {
+                c.report(&at.key("run"), why, None);
+                continue;
+            }
+        };
         if !seen.insert(run.clone()) {
             c.report(
                 &at.key("run"),

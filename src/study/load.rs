@@ -56,6 +56,14 @@ pub fn read_limited(path: &Path, limit: u64, file_name: &str) -> Result<Vec<u8>,
             Some("expected a study file (.yaml)".into()),
         ));
     }
+    // Only regular files are opened: opening a FIFO blocks until someone writes to it, and a
+    // device may never end.
+    if !meta.is_file() {
+        return Err(whole_file(
+            "is not a regular file (a pipe, socket or device)".into(),
+            Some("expected a regular file".into()),
+        ));
+    }
     let too_large = |size: String| {
         whole_file(
             format!("the file is too large ({size} bytes)"),
@@ -264,6 +272,31 @@ fn yaml_problem(message: &str, scalar: Option<&str>) -> (String, Option<String>)
         )
     } else if lower.contains("unknown field") {
         (message.to_string(), None)
+    } else if lower.contains("multiple yaml documents") {
+        (
+            "the file holds more than one YAML document (a `---` line starts another)".into(),
+            Some("expected one study per file; remove the second document".into()),
+        )
+    } else if let Some(name) = message
+        .split("untagged enum ")
+        .nth(1)
+        .map(|r| r.split_whitespace().next().unwrap_or_default())
+    {
+        // serde's name of the Rust type is no help to the user: say which forms are valid.
+        let expected = match name {
+            "RandomizeSpec" => {
+                "expected false or {seed: <whole number from 0 to 18446744073709551615>}"
+            }
+            "RunsSpec" => {
+                "expected a number of runs, or a list of runs `{run: ID, <factor id>: -1 | 0 | 1}`"
+            }
+            "NominalRunsSpec" => "expected spread, first, last, random or {every: <whole number>}",
+            _ => "expected one of the forms the schema describes (`plateau schema`)",
+        };
+        (
+            "the value is not an accepted form".to_string(),
+            Some(expected.into()),
+        )
     } else {
         (format!("invalid YAML: {message}"), None)
     }

@@ -5,6 +5,7 @@
 
 pub mod check;
 pub mod diagnostic;
+pub mod glyphs;
 pub mod load;
 pub mod locate;
 pub mod model;
@@ -20,6 +21,32 @@ pub use model::{DesignKind, LimitUnit, PercentOf};
 /// A run identifier as the run sheet prints it (integers are kept as their decimal text).
 #[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize)]
 pub struct RunId(pub String);
+
+impl RunId {
+    /// The one form a run id is compared in: the text trimmed, and a number written in
+    /// decimal (`7`, `+7`, `007`, `7.0`, `7e0`) as its whole-number value `7`, so that the
+    /// same run written as a YAML number, a YAML string or a CSV cell is one id. Text that is
+    /// not a whole number within ±9·10^15 (exact in a double) is kept as written.
+    pub fn canonical(text: &str) -> RunId {
+        let t = text.trim();
+        let numeric = !t.is_empty()
+            && t.bytes()
+                .all(|b| b.is_ascii_digit() || matches!(b, b'+' | b'-' | b'.' | b'e' | b'E'))
+            && t.bytes().any(|b| b.is_ascii_digit());
+        if numeric {
+            if let Ok(i) = t.parse::<i64>() {
+                return RunId(i.to_string());
+            }
+            if let Ok(f) = t.parse::<f64>()
+                && f.fract() == 0.0
+                && f.abs() < 9.0e15
+            {
+                return RunId(format!("{}", f as i64));
+            }
+        }
+        RunId(t.to_string())
+    }
+}
 
 impl std::fmt::Display for RunId {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
@@ -303,4 +330,19 @@ pub struct Planning {
     pub level: Option<f64>,
     /// Where the estimate comes from.
     pub source: Option<String>,
+}
+
+#[cfg(test)]
+mod run_id_tests {
+    use super::RunId;
+
+    #[test]
+    fn one_canonical_form_for_a_run_id() {
+        for text in ["7", " 7 ", "+7", "007", "7.0", "7e0"] {
+            assert_eq!(RunId::canonical(text), RunId("7".into()), "{text}");
+        }
+        assert_eq!(RunId::canonical("7.5"), RunId("7.5".into()));
+        assert_eq!(RunId::canonical("R7"), RunId("R7".into()));
+        assert_eq!(RunId::canonical("1e300"), RunId("1e300".into()));
+    }
 }

@@ -211,9 +211,16 @@ fn inline_rows(study: &Study, runs: &[BTreeMap<String, Value>]) -> Result<Vec<Ro
     let locator = super::locate::Locator::new(&study.text);
     for (i, entry) in runs.iter().enumerate() {
         let here = FieldPath::of(&["results", "runs"]).index(i);
-        let Some(run) = entry.get("run").and_then(run_id) else {
-            problems.push(study.diagnostic(&here.key("run"), "missing run id", None));
-            continue;
+        let run = match entry.get("run").map(run_id) {
+            Some(Ok(run)) => run,
+            Some(Err(why)) => {
+                problems.push(study.diagnostic(&here.key("run"), why, None));
+                continue;
+            }
+            None => {
+                problems.push(study.diagnostic(&here.key("run"), "missing run id", None));
+                continue;
+            }
         };
         for key in entry.keys() {
             if key != "run" && !ids.contains(&key.as_str()) {
@@ -337,6 +344,14 @@ fn csv_rows(
         name: file.to_string(),
         sha256: sha256_hex(&bytes),
     };
+    // Line numbers come from byte offsets: the csv crate's own line count is one too low for a
+    // file with CRLF line ends.
+    let newlines: Vec<usize> = text
+        .bytes()
+        .enumerate()
+        .filter(|(_, b)| *b == b'\n')
+        .map(|(i, _)| i)
+        .collect();
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(true)
         .flexible(true)
@@ -422,11 +437,12 @@ fn csv_rows(
     let planned: BTreeMap<&RunId, &crate::design::PlannedRun> =
         design.runs.iter().map(|r| (&r.id, r)).collect();
     let mut rows = Vec::new();
+    let mut settings: Vec<SettingCell> = Vec::new();
     for record in reader.records() {
         let record = match record {
             Ok(r) => r,
             Err(e) => {
-                let line = e.position().map(|p| p.line() as usize);
+                let line = e.position().map(|p| line_of(&newlines, p.byte()));
                 problems.push(one(
                     line,
                     "",
@@ -436,7 +452,7 @@ fn csv_rows(
                 continue;
             }
         };
-        let line = record.position().map(|p| p.line() as usize);
+        let line = record.position().map(|p| line_of(&newlines, p.byte()));
         if record.iter().all(str::is_empty) {
             continue; // a blank line, e.g. at the end of the file
         }
@@ -460,7 +476,7 @@ fn csv_rows(
             ));
             continue;
         }
-        let run_text = record.get(run_col).unwrap_or_default();
+        let run_text = crate::output::unneutralised(record.get(run_col).unwrap_or_default());
         if run_text.is_empty() {
             problems.push(one(
                 line,
@@ -470,7 +486,7 @@ fn csv_rows(
             ));
             continue;
         }
-        let run = RunId(run_text.to_string());
+        let run = RunId::canonical(run_text);
         let mut values = Vec::new();
         for id in &response_ids {
             let col = header.iter().position(|h| h == id).unwrap_or(0);
@@ -504,20 +520,23 @@ fn csv_rows(
                 let Some(col) = header.iter().position(|h| h == &f.id) else {
                     continue;
                 };
-                let cell = record.get(col).unwrap_or_default();
+                let cell = crate::output::unneutralised(record.get(col).unwrap_or_default());
                 let expected = planned_run
                     .coded
                     .get(j)
                     .map(|c| f.setting(*c))
                     .unwrap_or(Setting::Level(String::new()));
-                if !setting_matches(cell, &expected, planned_run.coded.get(j).copied()) {
-                    problems.push(one(
-                        line,
-                        &f.id,
-                        format!("run `{run}`: setting `{cell}` differs from the plan"),
-                        Some(format!("expected {} as planned", setting_text(&expected))),
-                    ));
-                }
+                let coded = planned_run.coded.get(j).copied();
+                settings.push(SettingCell {
+                    line,
+                    factor: f.id.clone(),
+                    run: run.clone(),
+                    cell: cell.to_string(),
+                    real: setting_matches(cell, &expected),
+                    coded_ok: coded.is_some_and(|c| coded_matches(cell, c)),
+                    expected: setting_text(&expected),
+                    coded,
+                });
             }
         }
         rows.push(Row {
@@ -529,6 +548,31 @@ fn csv_rows(
                 field: "run".into(),
             },
         });
+    }
+    // The sheet is either in real units or, as a whole, the coded one (`plateau design
+    // --coded`): a single cell equal to the coded level in a real-unit sheet is a wrong
+    // setting (flow logged 1.0 for a run planned at 1.1), not a coded cell.
+    let coded_sheet = !settings.is_empty() && settings.iter().all(|s| s.coded_ok);
+    for s in settings {
+        let ok = if coded_sheet { s.coded_ok } else { s.real };
+        if !ok {
+            let expected = match (coded_sheet, s.coded) {
+                (true, Some(c)) => format!("coded level {c}, as in the whole sheet"),
+                _ => format!(
+                    "{} as planned (a sheet holds real settings throughout, or coded levels throughout)",
+                    s.expected
+                ),
+            };
+            problems.push(one(
+                s.line,
+                &s.factor,
+                format!(
+                    "run `{}`: setting `{}` differs from the plan",
+                    s.run, s.cell
+                ),
+                Some(format!("expected {expected}")),
+            ));
+        }
     }
     if problems.is_empty() {
         Ok((rows, data))
@@ -544,17 +588,39 @@ fn setting_text(s: &Setting) -> String {
     }
 }
 
-fn setting_matches(cell: &str, expected: &Setting, coded: Option<i8>) -> bool {
+/// The 1-based line of the byte at `offset`, from the offsets of the newlines before it.
+fn line_of(newlines: &[usize], offset: u64) -> usize {
+    let offset = usize::try_from(offset).unwrap_or(usize::MAX);
+    // With CRLF ends the csv crate puts a record's start on the LF of the line before it.
+    newlines.partition_point(|&n| n <= offset) + 1
+}
+
+/// One factor cell of a results sheet, judged once the whole sheet is read.
+struct SettingCell {
+    line: Option<usize>,
+    factor: String,
+    run: RunId,
+    cell: String,
+    /// Equal to the planned real setting.
+    real: bool,
+    /// Equal to the planned coded level.
+    coded_ok: bool,
+    expected: String,
+    coded: Option<i8>,
+}
+
+fn setting_matches(cell: &str, expected: &Setting) -> bool {
     match expected {
         Setting::Value(v) => match cell.parse::<f64>() {
-            // Either real units or coded levels (the run sheet's --coded form).
-            Ok(x) => {
-                (x - v).abs() <= 1e-9 * v.abs().max(1.0) || coded.is_some_and(|c| x == f64::from(c))
-            }
+            Ok(x) => (x - v).abs() <= 1e-9 * v.abs().max(1.0),
             Err(_) => false,
         },
-        Setting::Level(l) => cell == l || coded.is_some_and(|c| cell.parse::<i8>() == Ok(c)),
+        Setting::Level(l) => cell == l,
     }
+}
+
+fn coded_matches(cell: &str, coded: i8) -> bool {
+    cell.parse::<f64>().is_ok_and(|x| x == f64::from(coded))
 }
 
 /// A finite decimal number in the plain form `[-]digits[.digits][e[-]digits]`.

@@ -1,8 +1,8 @@
 //! The typeset verification record: the template context (every number formatted here, so
 //! the template only lays out), and the folder with `verification.pdf`, `.typ` and `.json`.
 //!
-//! The folder is assembled under a temporary name beside its destination and renamed into
-//! place only when every file (the PDF included) is complete, as the report folder is.
+//! The folder is written by [`crate::output`] as the report folder is: never over a folder it
+//! did not write, assembled under a unique temporary name, renamed into place when complete.
 
 use std::path::{Path, PathBuf};
 
@@ -169,62 +169,22 @@ pub fn write(
     let json = serde_json::to_string_pretty(record)
         .map_err(|e| VerifyError::write(Path::new(JSON), e))?
         + "\n";
-    let parent = dir
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .map(Path::to_path_buf)
-        .unwrap_or_else(|| PathBuf::from("."));
-    let name = dir
-        .file_name()
-        .map(|n| n.to_string_lossy().to_string())
-        .unwrap_or_else(|| "verification".into());
-    std::fs::create_dir_all(&parent).map_err(|e| VerifyError::write(&parent, e))?;
-    let staging = parent.join(format!(".{name}.partial-{}", std::process::id()));
-    let result = (|| {
-        if staging.exists() {
-            std::fs::remove_dir_all(&staging).map_err(|e| VerifyError::write(&staging, e))?;
-        }
-        std::fs::create_dir(&staging).map_err(|e| VerifyError::write(&staging, e))?;
-        for (file, text) in [(TYP, &source), (JSON, &json)] {
-            let path = staging.join(file);
-            std::fs::write(&path, text).map_err(|e| VerifyError::write(&path, e))?;
-        }
+    let files = vec![
+        (TYP.to_string(), source.into_bytes()),
+        (JSON.to_string(), json.into_bytes()),
+    ];
+    crate::output::write_folder(dir, "verification record folder", &files, |staging| {
         if let Some(typst) = typst {
-            let packages = parent.join(format!(".{name}.no-packages-{}", std::process::id()));
-            std::fs::create_dir_all(&packages).map_err(|e| VerifyError::write(&packages, e))?;
-            let stamp = typst::unix_midnight(&record.date).unwrap_or(0);
-            let compiled = typst.compile(&staging, TYP, PDF, stamp, &packages);
-            let _ = std::fs::remove_dir_all(&packages);
-            compiled?;
+            crate::report::typeset(typst, staging, TYP, PDF, &record.date).map_err(
+                |e| match e {
+                    crate::report::ReportError::Typst(t) => VerifyError::Typst(t),
+                    other => VerifyError::write(staging, other),
+                },
+            )?;
         }
-        replace_dir(&staging, dir)
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_dir_all(&staging);
-    }
-    result.map(|()| dir.to_path_buf())
-}
-
-/// Moves `staging` to `dest`, replacing an existing record only after the new one is complete.
-fn replace_dir(staging: &Path, dest: &Path) -> Result<(), VerifyError> {
-    if dest.exists() {
-        let old = dest.with_file_name(format!(
-            ".{}.old-{}",
-            dest.file_name()
-                .map(|n| n.to_string_lossy().to_string())
-                .unwrap_or_default(),
-            std::process::id()
-        ));
-        std::fs::rename(dest, &old).map_err(|e| VerifyError::write(dest, e))?;
-        if let Err(e) = std::fs::rename(staging, dest) {
-            let _ = std::fs::rename(&old, dest);
-            return Err(VerifyError::write(dest, e));
-        }
-        let _ = std::fs::remove_dir_all(&old);
-        Ok(())
-    } else {
-        std::fs::rename(staging, dest).map_err(|e| VerifyError::write(dest, e))
-    }
+        Ok::<(), VerifyError>(())
+    })?;
+    Ok(dir.to_path_buf())
 }
 
 #[cfg(test)]

@@ -80,6 +80,9 @@ pub enum VerifyError {
     /// The record's template failed.
     #[error(transparent)]
     Template(#[from] crate::report::render::TemplateError),
+    /// The destination was refused, or could not be written.
+    #[error(transparent)]
+    Output(#[from] crate::output::OutputError),
     /// A file could not be written.
     #[error("failed to write {path} ({cause})")]
     Write {
