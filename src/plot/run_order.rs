@@ -321,10 +321,11 @@ fn legend_rows(entries: Vec<LegendEntry>, width: i32) -> Vec<Vec<LegendEntry>> {
     for e in entries {
         if let Some(row) = rows.last_mut() {
             row.push(e);
-            if row.len() > 1 && style::legend_width(row) > width {
-                if let Some(moved) = row.pop() {
-                    rows.push(vec![moved]);
-                }
+            if row.len() > 1
+                && style::legend_width(row) > width
+                && let Some(moved) = row.pop()
+            {
+                rows.push(vec![moved]);
             }
         }
     }

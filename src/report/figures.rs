@@ -99,7 +99,16 @@ pub const MIN_HALF_NORMAL: usize = 7;
 pub fn build(evaluated: &Evaluated) -> Result<Figures, PlotError> {
     let mut out = Figures::default();
     for response in &evaluated.analysis.responses {
-        if !response.effects.is_empty() {
+        if response.effects.is_empty() {
+            out.omitted.push(Omitted {
+                response: response.id.clone(),
+                kind: "halfnormal",
+                reason: format!(
+                    "No half-normal plot or bar chart of the effects on {}: the analysis estimated no effects.",
+                    response.name
+                ),
+            });
+        } else {
             if response.effects.len() < MIN_HALF_NORMAL {
                 out.omitted.push(Omitted {
                     response: response.id.clone(),
@@ -129,8 +138,16 @@ pub fn build(evaluated: &Evaluated) -> Result<Figures, PlotError> {
         let (drawn, omitted) = interaction_figures(evaluated, response)?;
         out.drawn.extend(drawn);
         out.omitted.extend(omitted);
-        if let Some(f) = run_order_figure(evaluated, response)? {
-            out.drawn.push(f);
+        match run_order_figure(evaluated, response)? {
+            Some(f) => out.drawn.push(f),
+            None => out.omitted.push(Omitted {
+                response: response.id.clone(),
+                kind: "run-order",
+                reason: format!(
+                    "No run-order chart of {}: no run has a value.",
+                    response.name
+                ),
+            }),
         }
     }
     Ok(out)

@@ -7,12 +7,12 @@
 //!   otherwise measured values keep the decimals found in the data and derived quantities get
 //!   one decimal more ([`Numbers`]);
 //! - quantities without a natural unit or in squared units (sums of squares, mean squares, F,
-//!   t, standard errors, sensitivity coefficients) print with 4 significant figures, switching
+//!   standard errors, sensitivity coefficients) print with 4 significant figures, switching
 //!   to `a.bcd × 10ⁿ` outside 0.0001 ≤ |x| < 10⁶ ([`sig`]); a drift rate per run prints with 3
 //!   and carries the response's unit; standard uncertainties print with 2 (JCGM 100:2008,
 //!   §7.2.6: "at most two significant digits");
 //! - proposed factor ranges print with one decimal more than the factor's levels;
-//! - p-values print with 3 decimals, below 0.001 as `p < 0.001` ([`p_clause`]).
+//! - t statistics print with 2 decimals ([`statistic`]), p-values with 3, below 0.001 as `p < 0.001` ([`p_clause`]).
 //!
 //! Only the typeset chapter uses these forms: CSV and JSON keep full precision and ASCII `-`.
 
@@ -92,6 +92,16 @@ pub fn sig(value: f64, digits: u32) -> String {
     }
     let decimals = (digits as i32 - 1 - magnitude).max(0) as u32;
     fixed(value, decimals)
+}
+
+/// A test statistic (t) with 2 decimals, the usual precision of a tabulated t; beyond 10⁶
+/// (a residual of exactly zero divided by rounding noise) as a power of ten ([`sig`]).
+pub fn statistic(t: f64) -> String {
+    if t.is_finite() && t.abs() >= 1e6 {
+        sig(t, SIGNIFICANT)
+    } else {
+        fixed(t, 2)
+    }
 }
 
 /// A p-value as a clause: `p = 0.012`, `p < 0.001`; `p = –` when there is none.
@@ -188,6 +198,13 @@ mod tests {
     fn tiny_values_switch_to_a_power_of_ten() {
         assert_eq!(sig(0.000012345, 3), "1.23 × 10⁻⁵");
         assert_eq!(sig(9.9996e-5, 4), "1.000 × 10⁻⁴");
+    }
+
+    #[test]
+    fn a_t_statistic_prints_with_two_decimals_and_never_as_a_wall_of_digits() {
+        assert_eq!(statistic(-2.099e-13), "0.00");
+        assert_eq!(statistic(12.1244), "12.12");
+        assert_eq!(statistic(20_984_102_331_795.53), "2.098 × 10¹³");
     }
 
     #[test]

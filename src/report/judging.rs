@@ -11,6 +11,7 @@ use crate::study::Study;
 use super::conclusion::significance_text;
 use super::format::{
     Numbers, RATE_DIGITS, SIGNIFICANT, UNCERTAINTY_DIGITS, fixed, p_cell, p_clause, setting, sig,
+    statistic,
 };
 
 /// The statistical blocks of one response.
@@ -176,7 +177,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
             c.n_centre,
             fixed(c.difference, d),
             sig(c.se, SIGNIFICANT),
-            c.t.map_or_else(|| "–".into(), |t| sig(t, SIGNIFICANT)),
+            c.t.map_or_else(|| "–".into(), statistic),
             setting(c.df),
             p_clause(c.p),
             match (r.error.df_replicates > 0, r.error.df_nominal > 0) {
@@ -194,7 +195,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
                 c.n,
                 sig(c.slope, RATE_DIGITS),
                 sig(c.se_slope, RATE_DIGITS),
-                c.t.map_or_else(|| "–".into(), |t| sig(t, SIGNIFICANT)),
+                c.t.map_or_else(|| "–".into(), statistic),
                 c.df,
                 p_clause(c.p),
                 match dr.correction {
