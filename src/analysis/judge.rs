@@ -330,6 +330,14 @@ pub fn analyse_response(
             dropped: fit.dropped.iter().map(|t| design.label(*t)).collect(),
         });
     }
+    let fitted_terms = fit.terms.len() + fit.dropped.len();
+    let offered = design.contrasts.len() + usize::from(fit.terms.contains(&BLOCK_TERM));
+    if !fit.orthogonal && fitted_terms < offered {
+        notes.push(Note::TermsNotFitted {
+            count: offered - fitted_terms,
+            limit: MAX_LEAST_SQUARES_TERMS,
+        });
+    }
     let block_effect = fit.effect(BLOCK_TERM).map(|e| super::BlockEffect {
         effect: e,
         se_ratio: fit
@@ -731,7 +739,7 @@ fn fit_model(
     });
     let columns: Vec<(TermMask, Vec<f64>)> = block_column
         .into_iter()
-        .chain(design.contrasts.iter().map(|c| {
+        .chain(least_squares_terms(design).into_iter().map(|c| {
             (
                 c.term,
                 rows.iter()
@@ -741,6 +749,23 @@ fn fit_model(
         }))
         .collect();
     Fit::least_squares(&columns, y)
+}
+
+/// Most columns a least-squares fit is offered: Gram–Schmidt costs N·p², so a 2^14 with one
+/// run excluded (16,383 columns) would take hours; above this, terms above the second order
+/// (then above the first) are left out of the fit and pooled into its residual.
+pub const MAX_LEAST_SQUARES_TERMS: usize = 256;
+
+/// The design's columns a least-squares fit is offered, in order (see
+/// [`MAX_LEAST_SQUARES_TERMS`]).
+fn least_squares_terms(design: &Design) -> Vec<&crate::design::Contrast> {
+    let mut offered: Vec<&crate::design::Contrast> = design.contrasts.iter().collect();
+    for order in [2, 1] {
+        if offered.len() > MAX_LEAST_SQUARES_TERMS {
+            offered.retain(|c| term_order(c.term) <= order);
+        }
+    }
+    offered
 }
 
 /// The model row of the nominal runs: numeric factors (and dummy columns) at 0, a categorical

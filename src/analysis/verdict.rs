@@ -121,6 +121,14 @@ pub enum Note {
         /// Determinations per run.
         determinations: usize,
     },
+    /// A least-squares fit of a large design left its higher-order columns out (pooled into
+    /// the residual) to stay within its column limit.
+    TermsNotFitted {
+        /// Columns left out.
+        count: usize,
+        /// The column limit of a least-squares fit.
+        limit: usize,
+    },
     /// An operating range was clipped to the tested range.
     RangeClipped {
         /// Factor id.

@@ -616,16 +616,9 @@ fn range_proposal(
 ) -> Option<String> {
     let (lo, hi) = (c.low?, c.high?);
     let f = study.factors.iter().find(|f| f.id == c.factor)?;
-    let crate::study::Levels::Numeric { nominal, low, high } = f.levels else {
+    let crate::study::Levels::Numeric { low, high, .. } = f.levels else {
         return None;
     };
-    let d = crate::analysis::data_decimals(&[nominal, low, high]) + 1;
-    let scale = 10f64.powi(d as i32);
-    // Inward, so the proposal never allows more than the computed range.
-    let (lo_r, hi_r) = (
-        (lo * scale - 1e-9).ceil() / scale,
-        (hi * scale + 1e-9).floor() / scale,
-    );
     let unit = factor_unit(study, &c.factor);
     let why = if c.basis == "relevance" {
         "keeps its effect within the acceptance limit"
@@ -642,10 +635,9 @@ fn range_proposal(
         )
     };
     Some(format!(
-        "{} {} to {}{unit} for {} ({why}{interactions}, assuming a linear effect; tested {} to {}{unit}{})",
+        "{} {}{unit} for {} ({why}{interactions}, assuming a linear effect; tested {} to {}{unit}{})",
         f.name,
-        fixed(lo_r, d),
-        fixed(hi_r, d),
+        super::judging::range_text(study, &c.factor, lo, hi),
         r.name,
         setting(low),
         setting(high),
@@ -865,6 +857,9 @@ pub fn note_text(study: &Study, response: &ResponseAnalysis, note: &Note) -> Str
         Note::NoCurvatureAllCategorical => "Every factor is categorical: the nominal runs repeat one corner of the design, so there is no curvature to check.".to_string(),
         Note::DeterminationsAveraged { determinations } => format!(
             "The {determinations} determinations of each run were averaged; their spread is the repeatability of the measurement and is not used as the error that judges effects."
+        ),
+        Note::TermsNotFitted { count, limit } => format!(
+            "The least-squares fit takes at most {limit} columns: {count} higher-order interaction columns were left out of it and pooled into its residual."
         ),
         Note::RangeClipped { factor } => format!(
             "The operating range of {} was cut back to the tested range: plateau does not extrapolate beyond the levels studied.",

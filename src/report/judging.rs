@@ -67,15 +67,20 @@ fn unit_of(study: &Study, id: &str) -> String {
         .unwrap_or_default()
 }
 
-/// A proposed factor setting: one decimal more than the factor's levels need (the chapter's
-/// number rule), so 32.24 °C prints as 32.2 °C beside levels 33 and 37 °C.
-pub fn range_setting(study: &Study, id: &str, x: f64) -> String {
+/// A proposed operating range `low to high`: one decimal more than the factor's levels need
+/// (the chapter's number rule), rounded inward so the printed range never allows more than
+/// the computed one (32.24 to 37.76 °C beside levels 33 and 37 °C prints as 32.3 to 37.7).
+pub fn range_text(study: &Study, id: &str, low: f64, high: f64) -> String {
     let decimals = study
         .factors
         .iter()
         .find(|f| f.id == id)
         .map_or(2, |f| super::context::factor_decimals(f) + 1);
-    fixed(x, decimals)
+    let scale = 10f64.powi(decimals as i32);
+    // The 1e-9 keeps a bound that is already on the grid (2.95 computed as 2.9500000000000002).
+    let lo = (low * scale - 1e-9).ceil() / scale;
+    let hi = (high * scale + 1e-9).floor() / scale;
+    format!("{} to {}", fixed(lo, decimals), fixed(hi, decimals))
 }
 
 /// Builds the statistical blocks of a response.
@@ -260,11 +265,9 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
                         "statistical criterion".into()
                     },
                     match (c.low, c.high) {
-                        (Some(lo), Some(hi)) => format!(
-                            "{} to {}{u}",
-                            range_setting(study, &c.factor, lo),
-                            range_setting(study, &c.factor, hi)
-                        ),
+                        (Some(lo), Some(hi)) => {
+                            format!("{}{u}", range_text(study, &c.factor, lo, hi))
+                        }
                         _ => "–".into(),
                     },
                     format!(
