@@ -80,7 +80,20 @@ pub struct Parts {
 /// plus nominal-run scatter), the residual split into lack of fit (two-level residual minus
 /// replicate scatter) and pure error. Without pure error, F and p are `None` and the note
 /// says why.
-pub fn table(parts: Parts) -> Result<AnovaTable, StatError> {
+pub fn table(mut parts: Parts) -> Result<AnovaTable, StatError> {
+    // Sums of squares at rounding level (an effect of exactly 0 computed as 1e-15) are zero:
+    // printing 1.0 × 10⁻²⁸ would suggest a measured quantity.
+    let noise = 1e-12 * parts.total_ss.abs();
+    for (_, ss) in &mut parts.terms {
+        if ss.abs() <= noise {
+            *ss = 0.0;
+        }
+    }
+    if let Some(ss) = parts.curvature_ss.as_mut()
+        && ss.abs() <= noise
+    {
+        *ss = 0.0;
+    }
     let df_pe = parts.replicate_df + parts.nominal_df;
     let ss_pe = parts.replicate_ss.max(0.0) + parts.nominal_ss.max(0.0);
     let ms_pe = (df_pe > 0).then(|| ss_pe / df_pe as f64);

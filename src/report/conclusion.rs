@@ -426,16 +426,9 @@ fn response_block(
         if c.basis == "significance" && both {
             continue;
         }
-        let for_information =
-            c.basis != "relevance" && r.verdict.outcome != Outcome::StatisticalOnly;
-        let text = match (precaution_text(study, c), &c.levels) {
-            (Some(_), Some([a, b])) if for_information => Some(format!(
-                "{} shifts {} between {a} and {b} by a statistically significant amount within the practical limit",
-                factor_name(study, &c.factor),
-                r.name
-            )),
-            (Some(t), _) => Some(t.trim_end_matches('.').to_string()),
-            (None, _) => range_proposal(study, r, c),
+        let text = match precaution_text(study, r, c) {
+            Some(t) => Some(t.trim_end_matches('.').to_string()),
+            None => range_proposal(study, r, c),
         };
         let Some(text) = text else { continue };
         if c.basis == "relevance" {
@@ -580,7 +573,11 @@ fn percent_words(p: f64) -> String {
     if p > 0.999 {
         "more than 99.9 %".into()
     } else {
-        format!("{} %", fixed(100.0 * p, if p >= 0.1 { 0 } else { 1 }))
+        // Whole percent, but never rounded up to a certainty it is not (99.6 % stays 99.6 %).
+        format!(
+            "{} %",
+            fixed(100.0 * p, if (0.1..0.99).contains(&p) { 0 } else { 1 })
+        )
     }
 }
 
@@ -879,10 +876,22 @@ pub fn p_text(p: f64) -> String {
     }
 }
 
-/// The precaution for a categorical factor that needs control, or `None` for a numeric one.
-pub fn precaution_text(study: &Study, c: &crate::analysis::judge::ControlRange) -> Option<String> {
+/// The precaution for a categorical factor that needs control, or `None` for a numeric one;
+/// a statistically significant change within a declared practical limit is stated for
+/// information only.
+pub fn precaution_text(
+    study: &Study,
+    r: &ResponseAnalysis,
+    c: &crate::analysis::judge::ControlRange,
+) -> Option<String> {
     let [nominal, alternative] = c.levels.as_ref()?;
     let name = factor_name(study, &c.factor);
+    if c.basis != "relevance" && r.verdict.robust.is_some() {
+        return Some(format!(
+            "{name} shifts {} between {nominal} and {alternative} by a statistically significant amount within the practical limit (for information; no precaution follows from it).",
+            r.name
+        ));
+    }
     Some(format!(
         "{name} changes the result between {nominal} and {alternative}: use only the level(s) qualified in this study; another {} needs its own comparison.",
         name.to_lowercase()

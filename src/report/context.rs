@@ -1018,7 +1018,12 @@ fn responses_text(evaluated: &Evaluated, figures: &Figures) -> Vec<ResponseText>
                     }
                 ),
                 (_, PercentOf::Mean) | (_, PercentOf::Nominal) => format!(
-                    "mean of the two-level runs, {}{}",
+                    "{}, {}{}",
+                    if r.fit.orthogonal {
+                        "intercept of the fitted model (the mean of the two-level runs)"
+                    } else {
+                        "intercept of the fitted model (least squares: not the raw mean of the runs left)"
+                    },
                     numbers.derived(r.reference),
                     if unit.is_empty() {
                         String::new()
@@ -1076,13 +1081,37 @@ fn responses_text(evaluated: &Evaluated, figures: &Figures) -> Vec<ResponseText>
                 )),
                 _ => None,
             };
-            let verdict = match r.verdict.robust {
-                None => "No acceptance rule was declared for this response.".to_string(),
-                Some(true) => "No main effect exceeds the acceptance limit.".to_string(),
-                Some(false) => format!(
-                    "Main effects beyond the acceptance limit: {}.",
-                    r.verdict.relevant_factors.join(", ")
+            let chains: Vec<String> =
+                r.verdict.unresolved.iter().map(|c| c.label.clone()).collect();
+            let verdict = match r.verdict.outcome {
+                crate::analysis::Outcome::Robust => {
+                    "No estimated effect, main effect or interaction, exceeds the acceptance limit."
+                        .to_string()
+                }
+                crate::analysis::Outcome::NotRobust => {
+                    let mut s = format!(
+                        "Beyond the acceptance limit: {}.",
+                        r.verdict.relevant_terms.join(", ")
+                    );
+                    if !chains.is_empty() {
+                        s.push_str(&format!(
+                            " Also beyond it, but aliased (the design cannot tell which term is responsible): {}.",
+                            chains.join("; ")
+                        ));
+                    }
+                    s
+                }
+                crate::analysis::Outcome::Unresolved => format!(
+                    "Beyond the acceptance limit, but aliased (the design cannot tell which term is responsible): {}.",
+                    chains.join("; ")
                 ),
+                crate::analysis::Outcome::StatisticalOnly
+                | crate::analysis::Outcome::NotJudged
+                    if r.limits.is_empty() =>
+                {
+                    "No acceptance limit was declared for this response.".to_string()
+                }
+                _ => "The acceptance limit cannot be applied: percent effects are undefined for a zero reference.".to_string(),
             };
             ResponseText {
                 role: r.role.clone(),

@@ -137,15 +137,24 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
                 "The first statistical criterion could not judge: {}.",
                 first.note.clone().unwrap_or_default()
             )
-        } else if r.verdict.significant_factors.is_empty() {
-            "Statistically, no main effect is significant.".to_string()
+        } else if r.verdict.significant_terms.is_empty()
+            && !r
+                .effects
+                .iter()
+                .any(|e| !e.estimable && e.significant == Some(true))
+        {
+            "Statistically, no estimated effect is significant.".to_string()
         } else {
             format!(
-                "Statistically significant main effects: {}.",
-                r.verdict
-                    .significant_factors
+                "Statistically significant: {}.",
+                r.effects
                     .iter()
-                    .map(|f| factor_name(study, f))
+                    .filter(|e| !e.dummy && e.significant == Some(true))
+                    .map(|e| if e.order == 1 && e.estimable {
+                        factor_name(study, &e.label)
+                    } else {
+                        e.label.clone()
+                    })
                     .collect::<Vec<_>>()
                     .join(", ")
             )
@@ -217,10 +226,27 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
     if let Some(w) = &r.worst_case {
         let lower = w.prediction.direction == crate::analysis::decision::Direction::Lower;
         out.worst_case = Some(format!(
-            "Worst case within the studied domain, from the {}: ŷ = {} {} Σ|E|/2 = {}{unit}{}. Proposed system-suitability limit: {} {}{unit}.",
-            w.basis,
-            fixed(w.prediction.mean, d),
-            if lower { "−" } else { "+" },
+            "Worst case within the studied domain, from the {} effects{}: {} = {}{unit}{}. Proposed system-suitability limit: {} {}{unit}.",
+            if w.basis == "all" {
+                "main"
+            } else {
+                w.basis.as_str()
+            },
+            if w.interactions.is_empty() {
+                String::new()
+            } else {
+                format!(" and the interactions {}", w.interactions.join(", "))
+            },
+            if w.interactions.is_empty() {
+                format!(
+                    "ŷ = b₀ {} Σ|E|/2 = {} {} Σ|E|/2",
+                    if lower { "−" } else { "+" },
+                    fixed(w.prediction.mean, d),
+                    if lower { "−" } else { "+" }
+                )
+            } else {
+                "ŷ at the worst corner of the fitted model".to_string()
+            },
             numbers.measured(w.prediction.predicted),
             match (w.min, w.max, w.meets) {
                 (Some(m), _, Some(true)) =>
@@ -253,7 +279,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         }
     }
     for c in &r.control_ranges {
-        match crate::report::conclusion::precaution_text(study, c) {
+        match crate::report::conclusion::precaution_text(study, r, c) {
             Some(s) => out.precautions.push(s),
             None => {
                 let u = unit_of(study, &c.factor);
@@ -261,6 +287,8 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
                     factor_name(study, &c.factor),
                     if c.basis == "relevance" {
                         "acceptance limit".into()
+                    } else if r.verdict.robust.is_some() {
+                        "statistical criterion (for information)".into()
                     } else {
                         "statistical criterion".into()
                     },
