@@ -238,10 +238,7 @@ fn the_example_report_pdf_shows_effects_verdicts_and_the_conclusion() {
     let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
     // Effects as computed (ph = −2.30 % label claim, −2.30 %), verdicts, conclusion, caution.
     assert!(flat.contains("−2.30"), "{flat}");
-    assert!(
-        flat.contains("Beyond the acceptance limit: ph."),
-        "{flat}"
-    );
+    assert!(flat.contains("Beyond the acceptance limit: ph."), "{flat}");
     assert!(
         flat.contains("Mobile-phase pH exceeded the limit with −2.30 % label claim (−2.30 %)."),
         "{flat}"

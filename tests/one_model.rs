@@ -388,3 +388,83 @@ fn follow_up_without_an_unresolved_chain_asks_for_a_term() {
     assert!(run.stderr.contains("--separate"), "{}", run.stderr);
     assert!(!out.exists());
 }
+
+/// The conclusion of a study as the chapter prints it (section.typ, Typst escapes removed).
+fn conclusion_of(path: &std::path::Path, dir: &tempfile::TempDir, name: &str) -> String {
+    let out = dir.path().join(name);
+    plateau(&["report", "--no-pdf", "-o"])
+        .arg_path(&out)
+        .arg_path(path)
+        .ok();
+    let section = std::fs::read_to_string(out.join("section.typ")).unwrap();
+    let start = section.find("== Conclusion").expect("a conclusion");
+    let end = section[start..]
+        .find("== References")
+        .map_or(section.len(), |e| start + e);
+    section[start..end].replace('\\', "")
+}
+
+#[test]
+fn a_relevant_interaction_makes_the_chapter_conclude_not_robust() {
+    // verification/cases/interaction-verdict.yaml: a full 2³ whose only relevant column is
+    // A×B; its study part is written out and reported.
+    let case =
+        std::fs::read_to_string(common::root().join("verification/cases/interaction-verdict.yaml"))
+            .unwrap();
+    let study_text: String = case
+        .split("\nstudy:\n")
+        .nth(1)
+        .unwrap()
+        .split("\nexpect:")
+        .next()
+        .unwrap()
+        .lines()
+        .map(|l| l.strip_prefix("  ").unwrap_or(l))
+        .collect::<Vec<_>>()
+        .join("\n");
+    let dir = tempfile::tempdir().unwrap();
+    let path = study(&dir, &study_text);
+    let text = conclusion_of(&path, &dir, "r");
+    assert!(
+        text.contains("The method is not robust over the tested ranges"),
+        "{text}"
+    );
+    assert!(
+        text.contains("The interaction Factor A × Factor B exceeded the limit"),
+        "{text}"
+    );
+    assert!(!text.contains("robust for these ranges"), "{text}");
+}
+
+#[test]
+fn no_example_conclusion_has_a_known_wording_fault() {
+    // Faults a review found in earlier chapters (issue "The chapter a reviewer can sign").
+    let dir = tempfile::tempdir().unwrap();
+    for (i, example) in [
+        "hplc-assay",
+        "gc-ethanol-fractional",
+        "dissolution-youden",
+        "lc-impurities-pb12",
+    ]
+    .iter()
+    .enumerate()
+    {
+        let text = conclusion_of(
+            &common::example(&format!("{example}/study.yaml")),
+            &dir,
+            &format!("r{i}"),
+        );
+        for fault in [
+            "declared before the data",
+            "the Lenth",
+            "also exceeded",
+            "p = 0.000",
+            "p = <",
+            "`",
+            "than it was varied",
+            "per run)",
+        ] {
+            assert!(!text.contains(fault), "{example}: `{fault}` in\n{text}");
+        }
+    }
+}
