@@ -1131,7 +1131,7 @@ fn verdict(
     };
     Verdict {
         outcome,
-        robust: practical.then(|| relevant_terms.is_empty() && unresolved.is_empty()),
+        robust: practical.then_some(relevant_terms.is_empty() && unresolved.is_empty()),
         no_significant_effect: judged_statistically.then_some(!any_significant),
         relevant_factors,
         significant_factors,

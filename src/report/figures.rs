@@ -1053,6 +1053,11 @@ fn run_order_figure(
     }))
 }
 
+/// A percent effect, NaN when undefined (a zero reference): NaN sorts last and prints as "–".
+fn pct(e: &crate::analysis::Effect) -> f64 {
+    e.percent.unwrap_or(f64::NAN)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -1111,9 +1116,4 @@ mod tests {
             None
         );
     }
-}
-
-/// A percent effect, NaN when undefined (a zero reference): NaN sorts last and prints as "–".
-fn pct(e: &crate::analysis::Effect) -> f64 {
-    e.percent.unwrap_or(f64::NAN)
 }
