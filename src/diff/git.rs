@@ -120,6 +120,7 @@ struct TempFolder(PathBuf);
 impl Drop for TempFolder {
     fn drop(&mut self) {
         let _ = std::fs::remove_dir_all(&self.0);
+        crate::output::cleanup::unregister_folder(&self.0);
     }
 }
 
@@ -136,7 +137,12 @@ impl TempFolder {
             let n = COUNTER.fetch_add(1, Ordering::Relaxed);
             let dir = base.join(format!("plateau-diff-{}-{n}-{nanos}", std::process::id()));
             match std::fs::create_dir(&dir) {
-                Ok(()) => return Ok(Self(dir)),
+                Ok(()) => {
+                    // Removed on SIGINT/SIGTERM/SIGHUP too, not only when dropped.
+                    crate::output::cleanup::install();
+                    crate::output::cleanup::register_folder(&dir);
+                    return Ok(Self(dir));
+                }
                 Err(e) => last = e.to_string(),
             }
         }
