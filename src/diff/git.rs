@@ -247,6 +247,18 @@ fn blob(root: &Path, rev: &str, commit: &str, file: &str) -> Result<Vec<u8>, Dif
         Some(kind) if kind == "blob" => {}
         _ => return Err(missing()),
     }
+    // Bounded like the files themselves (the results limit, the largest input): the size is
+    // asked first so a huge blob is never read into memory.
+    let limit = crate::study::results::MAX_RESULTS_BYTES;
+    let size = git_text(root, &["cat-file", "-s", &spec])?
+        .and_then(|s| s.parse::<u64>().ok())
+        .unwrap_or(u64::MAX);
+    if size > limit {
+        return Err(DiffError::Git {
+            command: format!("git cat-file -s {spec}"),
+            stderr: format!("the file is {size} bytes; expected at most {limit} bytes"),
+        });
+    }
     // --no-textconv: the bytes as committed, not a diff driver's rendering of them.
     let out = git(root, &["show", "--no-textconv", &spec])?;
     if !out.status.success() {
