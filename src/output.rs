@@ -250,6 +250,11 @@ fn inspect_folder(dest: &Path, what: &str) -> Result<Existing, OutputError> {
     Ok(Existing::Ours(listed))
 }
 
+/// Tells, before any work, whether [`write_folder`] would accept `dest`.
+pub fn check_folder(dest: &Path, what: &str) -> Result<(), OutputError> {
+    inspect_folder(dest, what).map(|_| ())
+}
+
 /// Writes the folder `dest`: `files` (plain names) into a fresh staging folder, then `finish`
 /// (e.g. the typesetter) on that folder, then the marker, then the rename into place. `what`
 /// names the folder in messages ("report folder"). Refuses before any work when `dest` is not
