@@ -793,10 +793,10 @@ fn run_batch(
                             _ => {}
                         }
                     }
-                    if let Ok(mut all) = slots.lock() {
-                        if let Some(slot) = all.get_mut(i) {
-                            *slot = Some(outcome);
-                        }
+                    if let Ok(mut all) = slots.lock()
+                        && let Some(slot) = all.get_mut(i)
+                    {
+                        *slot = Some(outcome);
                     }
                 }
             });

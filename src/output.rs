@@ -229,12 +229,17 @@ fn inspect_folder(dest: &Path, what: &str) -> Result<Existing, OutputError> {
         return Ok(Existing::Free);
     }
     let Some(listed) = read_marker(&dest.join(MARKER)) else {
-        return Err(occupied(
-            dest,
+        let older = ["inputs.json", "verification.json"]
+            .iter()
+            .any(|f| entries.iter().any(|e| e == f));
+        let why = if older {
             format!(
-                "the folder exists and is not a {what} plateau wrote (it has no {MARKER} file)"
-            ),
-        ));
+                "the folder has no {MARKER} file: it was written by an earlier plateau that did not list its files, or by hand; plateau cannot tell which files are its own"
+            )
+        } else {
+            format!("the folder exists and is not a {what} plateau wrote (it has no {MARKER} file)")
+        };
+        return Err(occupied(dest, why));
     };
     for entry in &entries {
         let regular = std::fs::symlink_metadata(dest.join(entry)).is_ok_and(|m| m.is_file());
@@ -248,6 +253,11 @@ fn inspect_folder(dest: &Path, what: &str) -> Result<Existing, OutputError> {
         }
     }
     Ok(Existing::Ours(listed))
+}
+
+/// Tells, before any work, whether [`write_folder`] would accept `dest`.
+pub fn check_folder(dest: &Path, what: &str) -> Result<(), OutputError> {
+    inspect_folder(dest, what).map(|_| ())
 }
 
 /// Writes the folder `dest`: `files` (plain names) into a fresh staging folder, then `finish`

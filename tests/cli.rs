@@ -3,7 +3,7 @@
 
 mod common;
 
-use common::{Run, example, fixture, json_of, pdf_text, plateau, typst_binary};
+use common::{example, fixture, json_of, pdf_text, plateau, typst_binary};
 
 #[test]
 fn pilot_plant_effects_of_box_hunter_hunter_come_out_of_a_yaml_study() {

@@ -120,6 +120,7 @@ struct TempFolder(PathBuf);
 impl Drop for TempFolder {
     fn drop(&mut self) {
         let _ = std::fs::remove_dir_all(&self.0);
+        crate::output::cleanup::unregister_folder(&self.0);
     }
 }
 
@@ -136,7 +137,12 @@ impl TempFolder {
             let n = COUNTER.fetch_add(1, Ordering::Relaxed);
             let dir = base.join(format!("plateau-diff-{}-{n}-{nanos}", std::process::id()));
             match std::fs::create_dir(&dir) {
-                Ok(()) => return Ok(Self(dir)),
+                Ok(()) => {
+                    // Removed on SIGINT/SIGTERM/SIGHUP too, not only when dropped.
+                    crate::output::cleanup::install();
+                    crate::output::cleanup::register_folder(&dir);
+                    return Ok(Self(dir));
+                }
                 Err(e) => last = e.to_string(),
             }
         }
@@ -240,6 +246,18 @@ fn blob(root: &Path, rev: &str, commit: &str, file: &str) -> Result<Vec<u8>, Dif
     match git_text(root, &["cat-file", "-t", &spec])? {
         Some(kind) if kind == "blob" => {}
         _ => return Err(missing()),
+    }
+    // Bounded like the files themselves (the results limit, the largest input): the size is
+    // asked first so a huge blob is never read into memory.
+    let limit = crate::study::results::MAX_RESULTS_BYTES;
+    let size = git_text(root, &["cat-file", "-s", &spec])?
+        .and_then(|s| s.parse::<u64>().ok())
+        .unwrap_or(u64::MAX);
+    if size > limit {
+        return Err(DiffError::Git {
+            command: format!("git cat-file -s {spec}"),
+            stderr: format!("the file is {size} bytes; expected at most {limit} bytes"),
+        });
     }
     // --no-textconv: the bytes as committed, not a diff driver's rendering of them.
     let out = git(root, &["show", "--no-textconv", &spec])?;

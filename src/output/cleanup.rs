@@ -13,6 +13,8 @@ use std::sync::Mutex;
 
 static FOLDERS: Mutex<Vec<PathBuf>> = Mutex::new(Vec::new());
 static CHILDREN: Mutex<Vec<i32>> = Mutex::new(Vec::new());
+/// Set once an interrupt is being handled: a child started after that is killed at once.
+static STOPPING: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
 
 /// Registers a folder to remove on a signal.
 pub fn register_folder(path: &Path) {
@@ -33,6 +35,9 @@ pub fn register_child(pid: u32) {
     install();
     if let (Ok(mut c), Ok(pid)) = (CHILDREN.lock(), i32::try_from(pid)) {
         c.push(pid);
+    }
+    if STOPPING.load(std::sync::atomic::Ordering::SeqCst) {
+        kill_group(pid);
     }
 }
 
@@ -66,6 +71,7 @@ pub fn install() {
 }
 
 fn clean_up() {
+    STOPPING.store(true, std::sync::atomic::Ordering::SeqCst);
     let children: Vec<i32> = CHILDREN.lock().map(|c| c.clone()).unwrap_or_default();
     for pid in children {
         kill_group(pid.unsigned_abs());

@@ -173,6 +173,8 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
         }
         .into());
     }
+    // Refused before the figures and templates are rendered, not after.
+    crate::output::check_folder(&dest, "report folder")?;
     let files = render_files(evaluated, options)?;
     crate::output::write_folder(&dest, "report folder", &files, |staging| {
         if let Some(typst) = &options.typst {

@@ -9,7 +9,7 @@ use std::io::Read;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
 use std::sync::Mutex;
-use std::time::{Duration, Instant};
+use std::time::Duration;
 
 /// The typst release plateau is built and tested against.
 pub const PINNED_VERSION: &str = "0.15.1";
@@ -234,29 +234,25 @@ fn run_limited(command: &mut Command, limit: Duration) -> std::io::Result<Option
             .take()
             .map(|p| Box::new(p) as Box<dyn Read + Send>),
     );
-    let deadline = Instant::now() + limit;
-    let mut pause = Duration::from_millis(1);
-    let status = loop {
-        match child.try_wait() {
-            Ok(Some(status)) => break Some(status),
-            Ok(None) if Instant::now() >= deadline => {
-                crate::output::cleanup::kill_group(pid);
-                let _ = child.kill();
-                let _ = child.wait();
-                break None;
-            }
-            Ok(None) => {
-                std::thread::sleep(pause);
-                pause = (pause * 2).min(Duration::from_millis(20));
-            }
-            Err(e) => {
-                crate::output::cleanup::kill_group(pid);
-                let _ = child.kill();
-                let _ = child.wait();
-                crate::output::cleanup::unregister_child(pid);
-                return Err(e);
-            }
+    // A waiter thread reports the exit at once (no polling delay added to every compile);
+    // on expiry the whole process group is killed, which ends the wait.
+    let (sender, receiver) = std::sync::mpsc::channel();
+    let waiter = std::thread::spawn(move || {
+        let status = child.wait();
+        let _ = sender.send(());
+        status
+    });
+    let finished = receiver.recv_timeout(limit).is_ok() || receiver.try_recv().is_ok();
+    if !finished {
+        crate::output::cleanup::kill_group(pid);
+    }
+    let status = match waiter.join() {
+        Ok(Ok(status)) => finished.then_some(status),
+        Ok(Err(e)) => {
+            crate::output::cleanup::unregister_child(pid);
+            return Err(e);
         }
+        Err(_) => None,
     };
     crate::output::cleanup::unregister_child(pid);
     let stdout = stdout.join().unwrap_or_default();
