@@ -5,6 +5,7 @@
 
 pub mod check;
 pub mod diagnostic;
+pub mod dialect;
 pub mod glyphs;
 pub mod load;
 pub mod locate;

@@ -457,4 +457,13 @@ pub struct ResultsSpec {
     /// Determinations per run (repeated CSV rows or inline lists); default 1.
     #[serde(default)]
     pub determinations: Option<u32>,
+    /// Column separator of the CSV, when it cannot be told from its header.
+    #[serde(default)]
+    pub separator: Option<super::dialect::Separator>,
+    /// Decimal mark of the CSV's numbers, when it cannot be told from them.
+    #[serde(default)]
+    pub decimal: Option<super::dialect::Decimal>,
+    /// Text encoding of the CSV, when it has no byte-order mark and is not UTF-8.
+    #[serde(default)]
+    pub encoding: Option<super::dialect::Encoding>,
 }

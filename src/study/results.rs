@@ -11,7 +11,7 @@ use serde_json::Value;
 
 use super::check::run_id;
 use super::diagnostic::{Diagnostic, Diagnostics, FieldPath, closest};
-use super::load::{decode, read_limited, sha256_hex};
+use super::load::{read_limited, sha256_hex};
 use super::{RunId, Setting, Study};
 use crate::design::Design;
 
@@ -339,7 +339,19 @@ fn csv_rows(
             return Err(d);
         }
     };
-    let text = decode(&bytes, &name)?;
+    let spec = study.results.as_ref();
+    let declared = super::dialect::Declared {
+        separator: spec.and_then(|r| r.separator),
+        decimal: spec.and_then(|r| r.decimal),
+        encoding: spec.and_then(|r| r.encoding),
+    };
+    let dialect_error = |e: super::dialect::DialectError| {
+        Diagnostics(vec![one(e.line, "", e.problem, Some(e.expected))])
+    };
+    let (text, encoding) =
+        super::dialect::decode(&bytes, declared.encoding).map_err(dialect_error)?;
+    let dialect = super::dialect::sniff(&text, encoding, &declared).map_err(dialect_error)?;
+    let dialect_text = dialect.describe();
     let data = DataFile {
         name: file.to_string(),
         sha256: sha256_hex(&bytes),
@@ -354,10 +366,11 @@ fn csv_rows(
         .collect();
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(true)
+        .delimiter(dialect.separator.byte())
         .flexible(true)
         .trim(csv::Trim::All)
         .from_reader(text.as_bytes());
-    let header: Vec<String> = match reader.headers() {
+    let mut header: Vec<String> = match reader.headers() {
         Ok(h) => h.iter().map(str::to_string).collect(),
         Err(e) => {
             return Err(Diagnostics(vec![one(
@@ -371,21 +384,17 @@ fn csv_rows(
     let response_ids: Vec<&str> = study.responses.iter().map(|r| r.id.as_str()).collect();
     let factor_ids: Vec<&str> = study.factors.iter().map(|f| f.id.as_str()).collect();
     let mut problems = Diagnostics::default();
-    if header.len() == 1 && header.first().is_some_and(|h| h.contains(';')) {
-        return Err(Diagnostics(vec![one(
-            Some(1),
-            "",
-            "the header has one column containing `;`: the file seems to be separated by semicolons".into(),
-            Some("expected comma-separated values (`run,assay,...`) with `.` as the decimal separator".into()),
-        )]));
+    // Spreadsheets add empty columns at the end of a row; they carry nothing.
+    while header.last().is_some_and(|h| h.is_empty()) {
+        header.pop();
     }
     let Some(run_col) = header.iter().position(|h| h == "run") else {
         return Err(Diagnostics(vec![one(
             Some(1),
             "run",
-            "the header has no `run` column".into(),
+            format!("the header has no `run` column ({dialect_text})"),
             Some(format!(
-                "expected a header such as `run,{}`",
+                "expected a header such as `run,{}`; if the columns are separated otherwise, state it under `results`: `separator: comma`, `semicolon` or `tab`",
                 response_ids.join(",")
             )),
         )]));
@@ -456,7 +465,9 @@ fn csv_rows(
         if record.iter().all(str::is_empty) {
             continue; // a blank line, e.g. at the end of the file
         }
-        if record.len() != header.len() {
+        let trailing_empty =
+            record.len() > header.len() && record.iter().skip(header.len()).all(str::is_empty);
+        if record.len() != header.len() && !trailing_empty {
             let decimal_comma = record.len() > header.len()
                 && record.iter().zip(record.iter().skip(1)).any(|(a, b)| {
                     !a.is_empty()
@@ -467,11 +478,11 @@ fn csv_rows(
             problems.push(one(
                 line,
                 "",
-                format!("the row has {} fields but the header has {}", record.len(), header.len()),
-                Some(if decimal_comma {
-                    "a number seems to use a comma as decimal separator: write `98.9`, not `98,9` (commas separate the columns)".into()
+                format!("the row has {} fields but the header has {} ({dialect_text})", record.len(), header.len()),
+                Some(if decimal_comma && dialect.separator == super::dialect::Separator::Comma {
+                    "a number seems to use a comma as decimal mark while commas also separate the columns: save the file with `;` between columns (then the decimal comma is read), or write `98.9`, not `98,9`".into()
                 } else {
-                    format!("expected {} comma-separated fields: {}", header.len(), header.join(","))
+                    format!("expected {} fields: {}", header.len(), header.join(","))
                 }),
             ));
             continue;
@@ -490,14 +501,16 @@ fn csv_rows(
         let mut values = Vec::new();
         for id in &response_ids {
             let col = header.iter().position(|h| h == id).unwrap_or(0);
-            let cell = record.get(col).unwrap_or_default();
+            let raw_cell = record.get(col).unwrap_or_default();
+            let normalised = super::dialect::normalise_number(raw_cell, dialect.decimal);
+            let cell = normalised.as_str();
             match parse_number(cell) {
                 Ok(v) => values.push(vec![v]),
                 Err(why) => problems.push(one(
                     line,
                     id,
-                    format!("run `{run}`: {why}"),
-                    Some(number_hint(cell)),
+                    format!("run `{run}`: {why} ({dialect_text})"),
+                    Some(number_hint(raw_cell, dialect.decimal)),
                 )),
             }
         }
@@ -641,11 +654,13 @@ fn parse_number(cell: &str) -> Result<f64, String> {
     }
 }
 
-fn number_hint(cell: &str) -> String {
+fn number_hint(cell: &str, decimal: super::dialect::Decimal) -> String {
     if cell.parse::<f64>().is_ok() {
         "expected a finite decimal number such as 99.5".into()
-    } else if cell.contains(',') {
-        "expected `.` as the decimal separator (e.g. 99.5), with columns separated by commas".into()
+    } else if cell.contains(',') && decimal == super::dialect::Decimal::Point {
+        "expected `.` as the decimal mark (e.g. 99.5); a file with decimal commas needs `;` or tabs between columns, or `decimal: comma` under `results`".into()
+    } else if cell.contains('.') && decimal == super::dialect::Decimal::Comma {
+        "expected a decimal comma throughout the file (e.g. 99,5) and no thousands separators; or state `decimal: point` under `results`".into()
     } else if cell.chars().any(|c| c.is_alphabetic() || c == '%')
         && cell.chars().any(|c| c.is_ascii_digit())
     {
