@@ -779,3 +779,20 @@ results: { file: sheet.csv }
     assert!(factors.contains("'=HYPERLINK(1)"), "{factors}");
     assert!(factors.contains("'@shift"), "{factors}");
 }
+
+#[test]
+fn a_typesetter_named_by_a_relative_path_is_found_for_the_compile_too() {
+    // The compile runs in the staging folder; `--typst tools/typst` must still name the stub.
+    let dir = tempfile::tempdir().unwrap();
+    copy_example(dir.path());
+    std::fs::create_dir(dir.path().join("tools")).unwrap();
+    stub_typst(
+        &dir.path().join("tools"),
+        "typst",
+        "printf '%%PDF-1.7 stub\\n' > \"$out\"",
+    );
+    plateau(&["report", "--typst", "tools/typst", "-o", "r", "study.yaml"])
+        .current_dir(dir.path())
+        .ok();
+    assert!(dir.path().join("r/report.pdf").is_file());
+}
