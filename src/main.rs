@@ -267,7 +267,13 @@ fn main() -> ExitCode {
         libc::signal(libc::SIGPIPE, libc::SIG_DFL);
     }
     let cli = Cli::parse();
-    match run(cli.command) {
+    let result = run(cli.command);
+    // An interrupt removed the temporary folders under the running command; the clean-up
+    // thread ends the process by that signal in a moment, so no error is printed for it.
+    while plateau::output::cleanup::is_stopping() {
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(Failure::Invalid(d)) => {
             for diagnostic in &d.0 {

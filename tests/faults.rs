@@ -537,6 +537,7 @@ fn an_interrupted_report_removes_its_staging_folders_and_keeps_the_previous_repo
             .arg("-o")
             .arg(&out)
             .arg(&study)
+            .env("PLATEAU_TYPST_TIMEOUT", "60")
             .spawn()
             .unwrap();
         let deadline = std::time::Instant::now() + std::time::Duration::from_secs(20);
@@ -555,7 +556,9 @@ fn an_interrupted_report_removes_its_staging_folders_and_keeps_the_previous_repo
             .status()
             .unwrap();
         let status = child.wait().unwrap();
-        assert!(!status.success(), "{signal}");
+        use std::os::unix::process::ExitStatusExt;
+        let number = if signal == "INT" { 2 } else { 15 };
+        assert_eq!(status.signal(), Some(number), "SIG{signal}: {status:?}");
         assert_eq!(common_files(&out), before, "the previous report changed");
         assert_eq!(
             names(dir.path()),
@@ -781,4 +784,21 @@ results: { file: sheet.csv }
     let factors = std::fs::read_to_string(out.join("factors.csv")).unwrap();
     assert!(factors.contains("'=HYPERLINK(1)"), "{factors}");
     assert!(factors.contains("'@shift"), "{factors}");
+}
+
+#[test]
+fn a_typesetter_named_by_a_relative_path_is_found_for_the_compile_too() {
+    // The compile runs in the staging folder; `--typst tools/typst` must still name the stub.
+    let dir = tempfile::tempdir().unwrap();
+    copy_example(dir.path());
+    std::fs::create_dir(dir.path().join("tools")).unwrap();
+    stub_typst(
+        &dir.path().join("tools"),
+        "typst",
+        "printf '%%PDF-1.7 stub\\n' > \"$out\"",
+    );
+    plateau(&["report", "--typst", "tools/typst", "-o", "r", "study.yaml"])
+        .current_dir(dir.path())
+        .ok();
+    assert!(dir.path().join("r/report.pdf").is_file());
 }

@@ -16,6 +16,12 @@ static CHILDREN: Mutex<Vec<i32>> = Mutex::new(Vec::new());
 /// Set once an interrupt is being handled: a child started after that is killed at once.
 static STOPPING: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
 
+/// Whether an interrupt is being handled: the process is about to end by that signal, so an
+/// error the clean-up caused (its folder vanished) is not worth reporting.
+pub fn is_stopping() -> bool {
+    STOPPING.load(std::sync::atomic::Ordering::SeqCst)
+}
+
 /// Registers a folder to remove on a signal.
 pub fn register_folder(path: &Path) {
     if let Ok(mut f) = FOLDERS.lock() {
@@ -117,10 +123,19 @@ mod unix {
             .name("plateau-signals".into())
             .spawn(move || {
                 let mut byte = 0u8;
-                // SAFETY: read(2) into a live local byte.
-                let n = unsafe { libc::read(read, (&raw mut byte).cast(), 1) };
-                if n != 1 {
-                    return;
+                // The handler may run on this very thread and interrupt the read (EINTR): read
+                // again until the byte is there.
+                loop {
+                    // SAFETY: read(2) into a live local byte.
+                    let n = unsafe { libc::read(read, (&raw mut byte).cast(), 1) };
+                    if n == 1 {
+                        break;
+                    }
+                    if n == 0
+                        || std::io::Error::last_os_error().kind() != std::io::ErrorKind::Interrupted
+                    {
+                        return;
+                    }
                 }
                 super::clean_up();
                 let signal = libc::c_int::from(byte);
@@ -140,6 +155,7 @@ mod unix {
             unsafe {
                 let mut action: libc::sigaction = std::mem::zeroed();
                 action.sa_sigaction = on_signal as *const () as libc::sighandler_t;
+                action.sa_flags = libc::SA_RESTART;
                 libc::sigemptyset(&raw mut action.sa_mask);
                 libc::sigaction(signal, &raw const action, std::ptr::null_mut());
             }

@@ -139,6 +139,13 @@ pub fn find_with(option: Option<&Path>, limit: Duration) -> Result<Typst, TypstE
     } else {
         (PathBuf::from("typst"), "searched the PATH".to_string())
     };
+    // A relative path such as `tools/typst` is made absolute now: typst is compiled with the
+    // staging folder as its working directory, where the relative path would name nothing.
+    let binary = if binary.components().count() > 1 && binary.is_relative() {
+        std::env::current_dir().map_or(binary.clone(), |d| d.join(&binary))
+    } else {
+        binary
+    };
     if let Some(version) = CHECKED
         .lock()
         .ok()
