@@ -2,8 +2,13 @@
 //! from, and telling whether a report is current, stale (and why) or missing.
 //!
 //! A report folder keeps `inputs.json`: the SHA-256 of the study file, its data file, its logo
-//! and every template used, with the plateau and typst versions. The same record computed now
-//! and compared field by field says exactly which input changed.
+//! and every template used, with the plateau and typst versions, and the SHA-256 of every file
+//! the report wrote. The same record computed now and compared field by field says exactly
+//! which input changed, and whether an output was edited after plateau wrote it.
+//!
+//! Text inputs (study, results, templates) are hashed with CRLF line ends read as LF, so a
+//! checkout that converts line ends (git on Windows) does not make every report stale; the
+//! provenance printed in the report keeps the exact bytes' SHA-256.
 
 use std::path::{Path, PathBuf};
 
@@ -28,6 +33,9 @@ pub struct Inputs {
     pub logo: Option<(String, String)>,
     /// Each template (name, SHA-256, `built-in` or `lab`).
     pub templates: Vec<(String, String, String)>,
+    /// Each file the report wrote (name, SHA-256 of its exact bytes), the PDF included.
+    #[serde(default)]
+    pub outputs: Vec<(String, String)>,
 }
 
 /// The templates a report is rendered from (the others make run sheets, diffs and records).
@@ -40,8 +48,73 @@ pub const RECORD: &str = "inputs.json";
 /// are recorded as unreadable rather than read without end.
 const MAX_HASHED_BYTES: u64 = 64 * 1024 * 1024;
 
+/// SHA-256 of a text file with CRLF line ends read as LF, in a stream and bounded like
+/// [`file_hash`].
+fn text_hash(path: &Path) -> String {
+    use sha2::Digest;
+    let unreadable = || "unreadable".to_string();
+    let Ok(meta) = std::fs::metadata(path) else {
+        return unreadable();
+    };
+    if !meta.is_file() || meta.len() > MAX_HASHED_BYTES {
+        return unreadable();
+    }
+    let Ok(file) = std::fs::File::open(path) else {
+        return unreadable();
+    };
+    let mut reader = std::io::Read::take(file, MAX_HASHED_BYTES + 1);
+    let mut hasher = sha2::Sha256::new();
+    let mut buf = vec![0u8; 64 * 1024];
+    let mut pending_cr = false;
+    let mut total = 0u64;
+    loop {
+        let n = match std::io::Read::read(&mut reader, &mut buf) {
+            Ok(0) => break,
+            Ok(n) => n,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
+            Err(_) => return unreadable(),
+        };
+        total += n as u64;
+        let mut out = Vec::with_capacity(n + 1);
+        for &b in buf.iter().take(n) {
+            if pending_cr && b != b'\n' {
+                out.push(b'\r');
+            }
+            pending_cr = b == b'\r';
+            if !pending_cr {
+                out.push(b);
+            }
+        }
+        hasher.update(&out);
+    }
+    if pending_cr {
+        hasher.update(b"\r");
+    }
+    if total > MAX_HASHED_BYTES {
+        return unreadable();
+    }
+    hasher
+        .finalize()
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+/// SHA-256 of bytes with CRLF line ends read as LF (text inputs held in memory).
+pub fn text_bytes_hash(bytes: &[u8]) -> String {
+    let mut out = Vec::with_capacity(bytes.len());
+    let mut i = 0;
+    while let Some(&b) = bytes.get(i) {
+        if !(b == b'\r' && bytes.get(i + 1) == Some(&b'\n')) {
+            out.push(b);
+        }
+        i += 1;
+    }
+    sha256_hex(&out)
+}
+
 /// SHA-256 of a regular file, read in a stream (never whole into memory) and bounded.
-fn file_hash(path: &Path) -> String {
+pub fn file_hash(path: &Path) -> String {
     use sha2::Digest;
     let unreadable = || "unreadable".to_string();
     let Ok(meta) = std::fs::metadata(path) else {
@@ -76,19 +149,20 @@ pub fn inputs(study: &Study, templates: Option<&Path>, typst_version: Option<&st
                 .path
                 .file_name()
                 .map_or_else(String::new, |n| n.to_string_lossy().to_string()),
-            study.sha256.clone(),
+            text_bytes_hash(study.text.as_bytes()),
         ),
         data: study
             .results
             .as_ref()
             .and_then(|r| r.file.as_ref())
-            .map(|f| (name(f), file_hash(&dir.join(f)))),
+            .map(|f| (name(f), text_hash(&dir.join(f)))),
         logo: study
             .report
             .logo
             .as_ref()
             .map(|f| (name(f), file_hash(&dir.join(f)))),
         templates: templates_used(templates),
+        outputs: Vec::new(),
     }
 }
 
@@ -102,7 +176,7 @@ fn templates_used(lab: Option<&Path>) -> Vec<(String, String, String)> {
         .map(|(n, text)| {
             let lab = lab.map(|d| d.join(n)).filter(|p| p.is_file());
             match lab {
-                Some(p) => ((*n).to_string(), file_hash(&p), "lab".to_string()),
+                Some(p) => ((*n).to_string(), text_hash(&p), "lab".to_string()),
                 None => (
                     (*n).to_string(),
                     sha256_hex(text.as_bytes()),
@@ -124,7 +198,7 @@ fn templates_used(lab: Option<&Path>) -> Vec<(String, String, String)> {
         .collect();
     others.sort();
     for name in others {
-        let hash = file_hash(&dir.join(&name));
+        let hash = text_hash(&dir.join(&name));
         out.push((name, hash, "lab".to_string()));
     }
     out
@@ -203,10 +277,86 @@ pub fn status(
     if recorded.typst != "none" && !dir.join("report.pdf").is_file() {
         why.push("report.pdf is missing".into());
     }
+    for (file, hash) in &recorded.outputs {
+        let path = dir.join(file);
+        if !path.is_file() {
+            if file != "report.pdf" {
+                why.push(format!("{file} is missing"));
+            }
+        } else if &file_hash(&path) != hash {
+            why.push(format!("{file} was changed after plateau wrote it"));
+        }
+    }
     if why.is_empty() {
         Status::Current
     } else {
         Status::Stale(why)
+    }
+}
+
+/// A report folder whose study is gone, emptied or no longer a study file.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Orphan {
+    /// The report folder.
+    pub dir: PathBuf,
+    /// The study file its record names.
+    pub study: PathBuf,
+    /// Why it has no study.
+    pub why: String,
+}
+
+/// Report folders under `paths` (folders holding an input record) whose recorded study file is
+/// missing, empty or no longer a study file.
+pub fn orphans(paths: &[PathBuf]) -> Vec<Orphan> {
+    let mut dirs = Vec::new();
+    for p in paths.iter().filter(|p| p.is_dir()) {
+        report_folders(p, &mut dirs);
+    }
+    let mut out = Vec::new();
+    for dir in dirs {
+        let Some(record) = recorded(&dir) else {
+            continue;
+        };
+        let study = dir
+            .parent()
+            .unwrap_or_else(|| Path::new("."))
+            .join(&record.study.0);
+        let why = if !study.exists() {
+            "its study file is gone"
+        } else if std::fs::metadata(&study).is_ok_and(|m| m.len() == 0) {
+            "its study file is empty"
+        } else if !is_study_file(&study) {
+            "its study file is no longer a study file (no top-level `schema:` key)"
+        } else {
+            continue;
+        };
+        out.push(Orphan {
+            dir,
+            study,
+            why: why.into(),
+        });
+    }
+    out
+}
+
+fn report_folders(dir: &Path, out: &mut Vec<PathBuf>) {
+    let Ok(entries) = std::fs::read_dir(dir) else {
+        return;
+    };
+    let mut entries: Vec<PathBuf> = entries.filter_map(|e| e.ok().map(|e| e.path())).collect();
+    entries.sort();
+    for path in entries {
+        let Ok(meta) = std::fs::symlink_metadata(&path) else {
+            continue;
+        };
+        if !meta.is_dir() {
+            continue;
+        }
+        if path.join(RECORD).is_file() {
+            out.push(path);
+        } else if !skipped(&path) {
+            report_folders(&path, out);
+        }
     }
 }
 

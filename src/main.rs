@@ -31,8 +31,13 @@ enum Command {
     /// Check a study file (schema, fields, design, results) without analysing it.
     #[command(after_help = EXIT_CODES)]
     Check {
-        /// The study file.
-        study: PathBuf,
+        /// Study files, or folders searched recursively for study files; `-` reads one study
+        /// from standard input.
+        #[arg(required = true)]
+        studies: Vec<PathBuf>,
+        /// Print one JSON object per study (ok, errors, warnings) instead of lines.
+        #[arg(long)]
+        json: bool,
     },
     /// Print the effects and verdicts of a study.
     #[command(after_help = EXIT_CODES)]
@@ -100,6 +105,9 @@ enum Command {
         /// Write everything except the PDF (no typesetter needed).
         #[arg(long)]
         no_pdf: bool,
+        /// Print one JSON object per study (written, current or failed, with the error).
+        #[arg(long)]
+        json: bool,
     },
     /// Print the run sheet (CSV, in run order, one empty column per response).
     #[command(after_help = EXIT_CODES)]
@@ -115,6 +123,9 @@ enum Command {
         /// Typeset a printable run sheet as PDF (needs -o FILE).
         #[arg(long, requires = "output")]
         pdf: bool,
+        /// Print the run sheet as JSON (runs in order with their settings) instead of CSV.
+        #[arg(long, conflicts_with_all = ["pdf", "output"])]
+        json: bool,
         /// Replace an existing output file.
         #[arg(long)]
         force: bool,
@@ -152,6 +163,9 @@ enum Command {
         /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
         #[arg(long, value_name = "SECONDS")]
         typst_timeout: Option<u64>,
+        /// Print one JSON object per study, report folder or empty path.
+        #[arg(long)]
+        json: bool,
     },
     /// Run the reference cases on this installation and write a calculation verification
     /// record (installation and operational qualification evidence).
@@ -308,52 +322,43 @@ fn find_typst(
 
 fn run(command: Command) -> Result<(), Failure> {
     match command {
-        Command::Check { study } => {
-            let (s, design) = pipeline::plan(&study)?;
-            // Read the results before printing anything, so a failing file shows only errors.
-            let results = match s.results {
-                Some(_) => Some(pipeline::evaluate(&study)?),
-                None => None,
-            };
-            println!(
-                "ok  {}: study {} ({})",
-                study.display(),
-                s.info.id,
-                s.info.title
-            );
-            println!(
-                "ok  design: {} runs ({} two-level, {} nominal), {} estimable contrasts",
-                design.runs.len(),
-                design.runs.iter().filter(|r| !r.nominal).count(),
-                design.nominal_count(),
-                design.contrasts.len()
-            );
-            if let Ok(p) = plateau::analysis::power::analyse(
-                &s,
-                &design,
-                plateau::analysis::power::DEFAULT_TARGET,
-            ) {
-                for w in plateau::report::power::warnings(&p) {
-                    eprintln!("warning: {w}");
+        Command::Check { studies, json } => {
+            let files = plateau::batch::discover(&studies)?;
+            if files.is_empty() {
+                return Err(Failure::Usage(
+                    "no study files found (a study file is a .yaml file with a top-level `schema:` key)".into(),
+                ));
+            }
+            let outcomes: Vec<CheckOutcome> = files.iter().map(|f| check_one(f)).collect();
+            if json {
+                let text = serde_json::to_string_pretty(&outcomes)
+                    .map_err(|e| Failure::Other(e.to_string()))?;
+                println!("{text}");
+            } else {
+                for o in &outcomes {
+                    for w in &o.warnings {
+                        eprintln!("warning: {w}");
+                    }
+                    for d in &o.errors {
+                        eprintln!("error: {d}");
+                    }
+                    for l in &o.lines {
+                        println!("ok  {l}");
+                    }
                 }
             }
-            match results {
-                Some(evaluated) => println!(
-                    "ok  results: {} runs × {} responses",
-                    evaluated.data.values.len(),
-                    s.responses.len()
-                ),
-                None => {
-                    println!("ok  no results yet: `plateau design` prints the run sheet to fill in")
-                }
+            if outcomes.iter().all(|o| o.ok) {
+                Ok(())
+            } else {
+                Err(Failure::Silent(1))
             }
-            Ok(())
         }
         Command::Design {
             study,
             output,
             coded,
             pdf,
+            json,
             force,
             typst: typst_path,
             typst_timeout,
@@ -385,6 +390,12 @@ fn run(command: Command) -> Result<(), Failure> {
                     },
                 )?;
                 println!("ok  run sheet written to {}", out.display());
+                return Ok(());
+            }
+            if json {
+                let text = serde_json::to_string_pretty(&sheet::json(&s, &design, levels))
+                    .map_err(|e| Failure::Other(e.to_string()))?;
+                println!("{text}");
                 return Ok(());
             }
             let text = sheet::csv(&s, &design, levels);
@@ -499,8 +510,14 @@ fn run(command: Command) -> Result<(), Failure> {
             typst: typst_path,
             typst_timeout,
             no_pdf,
+            json,
         } => {
             let mut files = plateau::batch::discover(&studies)?;
+            if output.is_none() && files.iter().any(|f| f == std::path::Path::new("-")) {
+                return Err(Failure::Usage(
+                    "a study read from standard input (`-`) needs its report folder named with -o DIR".into(),
+                ));
+            }
             let mut unique = std::collections::BTreeSet::new();
             files.retain(|f| unique.insert(f.clone()));
             if output.is_none() {
@@ -544,6 +561,40 @@ fn run(command: Command) -> Result<(), Failure> {
                 templates,
                 typst,
             };
+            if json {
+                let outcomes = if files.len() == 1 {
+                    vec![report_one(&files[0], &options, force)]
+                } else {
+                    run_batch(&files, &options, force, jobs, true)
+                };
+                let entries: Vec<serde_json::Value> = files
+                    .iter()
+                    .zip(&outcomes)
+                    .map(|(f, o)| {
+                        serde_json::json!({
+                            "study": f.display().to_string(),
+                            "report": o.dir.display().to_string(),
+                            "state": match (&o.failure, o.skipped) {
+                                (Some(_), _) => "failed",
+                                (None, true) => "current",
+                                (None, false) => "written",
+                            },
+                            "error": o.failure.as_ref().map(first_line),
+                        })
+                    })
+                    .collect();
+                let text = serde_json::to_string_pretty(&entries)
+                    .map_err(|e| Failure::Other(e.to_string()))?;
+                println!("{text}");
+                let typesetter = outcomes
+                    .iter()
+                    .any(|o| matches!(o.failure, Some(Failure::Typesetter(_))));
+                return match (outcomes.iter().any(|o| o.failure.is_some()), typesetter) {
+                    (false, _) => Ok(()),
+                    (true, true) => Err(Failure::Silent(3)),
+                    (true, false) => Err(Failure::Silent(1)),
+                };
+            }
             if files.len() == 1 {
                 let outcome = report_one(&files[0], &options, force);
                 return match outcome.failure {
@@ -585,6 +636,7 @@ fn run(command: Command) -> Result<(), Failure> {
             templates,
             typst: typst_path,
             typst_timeout,
+            json,
         } => {
             let paths = if paths.is_empty() {
                 vec![PathBuf::from(".")]
@@ -592,19 +644,28 @@ fn run(command: Command) -> Result<(), Failure> {
                 paths
             };
             let files = plateau::batch::discover(&paths)?;
+            let orphans = plateau::batch::orphans(&paths);
+            // A path that holds no study (and no report) is a mistake in a CI job, not a pass.
+            let empty: Vec<&PathBuf> = paths
+                .iter()
+                .filter(|p| p.is_dir())
+                .filter(|p| !files.iter().any(|f| f.starts_with(p)))
+                .filter(|p| !orphans.iter().any(|o| o.dir.starts_with(p)))
+                .collect();
             let typst_version = find_typst(typst_path.as_deref(), typst_timeout)
                 .ok()
                 .map(|t| t.version);
-            let mut not_current = 0;
+            let mut entries: Vec<StatusEntry> = Vec::new();
             for file in &files {
-                let line = match plateau::study::load(file) {
-                    Err(d) => format!(
-                        "invalid  {}: {}",
-                        file.display(),
-                        d.0.first().map(ToString::to_string).unwrap_or_default()
+                let dir = report::default_dir(file);
+                let entry = match plateau::study::load(file) {
+                    Err(d) => StatusEntry::new(
+                        file,
+                        &dir,
+                        "invalid",
+                        vec![d.0.first().map(ToString::to_string).unwrap_or_default()],
                     ),
                     Ok(study) => {
-                        let dir = report::default_dir(file);
                         // A report made with --no-pdf records typst `none`: it is current when
                         // its inputs are, whatever typst is installed now.
                         let no_pdf =
@@ -616,27 +677,45 @@ fn run(command: Command) -> Result<(), Failure> {
                         };
                         match plateau::batch::status(&study, &dir, templates.as_deref(), version) {
                             plateau::batch::Status::Current => {
-                                format!("current  {}", file.display())
+                                StatusEntry::new(file, &dir, "current", Vec::new())
                             }
-                            plateau::batch::Status::Missing => {
-                                format!(
-                                    "missing  {} (no report in {})",
-                                    file.display(),
-                                    dir.display()
-                                )
-                            }
+                            plateau::batch::Status::Missing => StatusEntry::new(
+                                file,
+                                &dir,
+                                "missing",
+                                vec![format!("no report in {}", dir.display())],
+                            ),
                             plateau::batch::Status::Stale(why) => {
-                                format!("stale    {}: {}", file.display(), why.join("; "))
+                                StatusEntry::new(file, &dir, "stale", why)
                             }
                         }
                     }
                 };
-                if !line.starts_with("current") {
-                    not_current += 1;
-                }
-                println!("{line}");
+                entries.push(entry);
             }
-            if not_current == 0 {
+            for o in &orphans {
+                entries.push(StatusEntry::new(
+                    &o.study,
+                    &o.dir,
+                    "orphaned",
+                    vec![o.why.clone()],
+                ));
+            }
+            for p in &empty {
+                entries.push(StatusEntry::new(p, p, "no-study", vec![
+                    "no study file (a .yaml file with a top-level `schema:` key) under this folder".into(),
+                ]));
+            }
+            if json {
+                let text = serde_json::to_string_pretty(&entries)
+                    .map_err(|e| Failure::Other(e.to_string()))?;
+                println!("{text}");
+            } else {
+                for e in &entries {
+                    println!("{}", e.line());
+                }
+            }
+            if entries.iter().all(|e| e.state == "current") && !entries.is_empty() {
                 Ok(())
             } else {
                 Err(Failure::Silent(1))
@@ -874,6 +953,25 @@ fn report_one(file: &std::path::Path, options: &report::Options, force: bool) ->
                 dir,
             };
         }
+        // A file of the report edited by hand is not what plateau wrote: never replace it
+        // silently (delete nothing you did not write).
+        if let plateau::batch::Status::Stale(why) = &now {
+            let edited: Vec<&String> = why
+                .iter()
+                .filter(|w| w.ends_with("was changed after plateau wrote it"))
+                .collect();
+            if !edited.is_empty() {
+                return fail(Failure::Other(format!(
+                    "the report in {} holds edited files ({})\nhint: copy your edits elsewhere, then rebuild with --force",
+                    dir.display(),
+                    edited
+                        .iter()
+                        .map(|w| w.trim_end_matches(" was changed after plateau wrote it"))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                )));
+            }
+        }
     }
     match report::write(&evaluated, options) {
         Ok(written) => Outcome {
@@ -916,4 +1014,120 @@ fn write_new_study(output: &std::path::Path, text: &str) -> Result<(), Failure> 
         });
     let _ = std::fs::remove_file(&staged);
     linked
+}
+
+/// One line of `plateau status`.
+#[derive(serde::Serialize)]
+struct StatusEntry {
+    /// The study file (for an orphaned report: the file its record names).
+    study: String,
+    /// Its report folder.
+    report: String,
+    /// `current`, `stale`, `missing`, `invalid`, `orphaned` or `no-study`.
+    state: &'static str,
+    /// Why, when not current.
+    reasons: Vec<String>,
+}
+
+impl StatusEntry {
+    fn new(
+        study: &std::path::Path,
+        dir: &std::path::Path,
+        state: &'static str,
+        reasons: Vec<String>,
+    ) -> Self {
+        StatusEntry {
+            study: study.display().to_string(),
+            report: dir.display().to_string(),
+            state,
+            reasons,
+        }
+    }
+
+    fn line(&self) -> String {
+        match self.state {
+            "current" => format!("current  {}", self.study),
+            "orphaned" => format!(
+                "orphaned {}: {} ({})",
+                self.report,
+                self.reasons.join("; "),
+                self.study
+            ),
+            "no-study" => format!("no-study {}: {}", self.study, self.reasons.join("; ")),
+            state => format!("{state:<8} {}: {}", self.study, self.reasons.join("; ")),
+        }
+    }
+}
+
+/// What `plateau check` found in one study file.
+#[derive(serde::Serialize)]
+struct CheckOutcome {
+    /// The study file.
+    study: String,
+    /// No error.
+    ok: bool,
+    /// The `ok` lines (study, design, results).
+    lines: Vec<String>,
+    /// Warnings (the design's power).
+    warnings: Vec<String>,
+    /// Errors with file, line, column, field and what would be valid.
+    errors: Vec<plateau::study::Diagnostic>,
+}
+
+/// Checks one study: schema, fields, design and results; warnings for a design that cannot
+/// detect its limit.
+fn check_one(study: &std::path::Path) -> CheckOutcome {
+    let mut out = CheckOutcome {
+        study: study.display().to_string(),
+        ok: false,
+        lines: Vec::new(),
+        warnings: Vec::new(),
+        errors: Vec::new(),
+    };
+    let (s, design) = match pipeline::plan(study) {
+        Ok(x) => x,
+        Err(d) => {
+            out.errors = d.0;
+            return out;
+        }
+    };
+    // Read the results before reporting anything, so a failing file shows only errors.
+    let results = match s.results {
+        Some(_) => match pipeline::evaluate(study) {
+            Ok(e) => Some(e),
+            Err(d) => {
+                out.errors = d.0;
+                return out;
+            }
+        },
+        None => None,
+    };
+    out.lines.push(format!(
+        "{}: study {} ({})",
+        study.display(),
+        s.info.id,
+        s.info.title
+    ));
+    out.lines.push(format!(
+        "design: {} runs ({} two-level, {} nominal), {} estimable contrasts",
+        design.runs.len(),
+        design.runs.iter().filter(|r| !r.nominal).count(),
+        design.nominal_count(),
+        design.contrasts.len()
+    ));
+    if let Ok(p) =
+        plateau::analysis::power::analyse(&s, &design, plateau::analysis::power::DEFAULT_TARGET)
+    {
+        out.warnings = plateau::report::power::warnings(&p);
+    }
+    out.lines.push(match results {
+        Some(evaluated) => format!(
+            "results: {} runs × {} responses",
+            evaluated.data.values.len(),
+            s.responses.len()
+        ),
+        None => "no results yet: `plateau design` prints the run sheet to fill in".to_string(),
+    });
+    out.ok = true;
+    out
 }

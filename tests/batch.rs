@@ -90,9 +90,26 @@ fn an_unchanged_study_is_skipped_unless_forced() {
     let study = &studies[0];
     plateau(&["report", "--no-pdf"]).arg_path(study).ok();
     let typ = study.parent().unwrap().join("study-report/report.typ");
-    std::fs::write(&typ, "tampered").unwrap();
     let run = plateau(&["report", "--no-pdf"]).arg_path(study).ok();
     assert!(run.stdout.contains("is current"), "{}", run.stdout);
+    // A hand-edited output is reported by status and never replaced without --force.
+    std::fs::write(&typ, "tampered").unwrap();
+    let status = plateau(&["status", "--typst", "/nonexistent"])
+        .arg_path(study)
+        .code(1);
+    assert!(
+        status
+            .stdout
+            .contains("report.typ was changed after plateau wrote it"),
+        "{}",
+        status.stdout
+    );
+    let run = plateau(&["report", "--no-pdf"]).arg_path(study).code(1);
+    assert!(
+        run.stderr.contains("holds edited files (report.typ)"),
+        "{}",
+        run.stderr
+    );
     assert_eq!(std::fs::read_to_string(&typ).unwrap(), "tampered");
     plateau(&["report", "--no-pdf", "--force"])
         .arg_path(study)

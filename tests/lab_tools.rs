@@ -161,3 +161,136 @@ fn a_bad_number_names_the_dialect_it_was_read_with() {
         run.stderr
     );
 }
+
+/// An example copied into `dir`, with its results.
+fn example_copy(dir: &Path, name: &str) -> PathBuf {
+    let target = dir.join(name);
+    std::fs::create_dir_all(&target).unwrap();
+    for entry in std::fs::read_dir(common::example(name)).unwrap() {
+        let entry = entry.unwrap();
+        if entry.file_type().unwrap().is_file() {
+            std::fs::copy(entry.path(), target.join(entry.file_name())).unwrap();
+        }
+    }
+    target.join("study.yaml")
+}
+
+#[test]
+fn status_lists_a_report_whose_study_was_emptied_or_removed() {
+    let dir = tempfile::tempdir().unwrap();
+    let a = example_copy(dir.path(), "hplc-assay");
+    let b = example_copy(dir.path(), "dissolution-youden");
+    plateau(&["report", "--no-pdf"]).arg_path(dir.path()).ok();
+    std::fs::write(&a, "").unwrap();
+    std::fs::remove_file(&b).unwrap();
+    let run = plateau(&["status", "--json", "--typst", "/nonexistent"])
+        .arg_path(dir.path())
+        .code(1);
+    let doc = json_of(&run.stdout);
+    let states: Vec<(&str, &str)> = doc
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|e| {
+            (
+                e["state"].as_str().unwrap(),
+                e["reasons"][0].as_str().unwrap(),
+            )
+        })
+        .collect();
+    assert!(
+        states.contains(&("orphaned", "its study file is empty")),
+        "{states:?}"
+    );
+    assert!(
+        states.contains(&("orphaned", "its study file is gone")),
+        "{states:?}"
+    );
+}
+
+#[test]
+fn status_of_a_folder_without_studies_fails() {
+    let dir = tempfile::tempdir().unwrap();
+    let run = plateau(&["status", "--typst", "/nonexistent"])
+        .arg_path(dir.path())
+        .code(1);
+    assert!(run.stdout.contains("no-study"), "{}", run.stdout);
+}
+
+#[test]
+fn a_crlf_checkout_of_the_same_study_is_still_current() {
+    let dir = tempfile::tempdir().unwrap();
+    let study = example_copy(dir.path(), "hplc-assay");
+    plateau(&["report", "--no-pdf"]).arg_path(&study).ok();
+    for file in ["study.yaml", "results.csv"] {
+        let path = study.parent().unwrap().join(file);
+        let text = std::fs::read_to_string(&path).unwrap();
+        std::fs::write(&path, text.replace('\n', "\r\n")).unwrap();
+    }
+    let run = plateau(&["status", "--typst", "/nonexistent"])
+        .arg_path(&study)
+        .ok();
+    assert!(run.stdout.starts_with("current"), "{}", run.stdout);
+}
+
+#[test]
+fn check_takes_many_files_and_folders_and_reports_each_as_json() {
+    let dir = tempfile::tempdir().unwrap();
+    let good = example_copy(dir.path(), "hplc-assay");
+    let bad = dir.path().join("bad.yaml");
+    std::fs::write(&bad, "schema: 1\nstudy: {}\n").unwrap();
+    let run = plateau(&["check", "--json"])
+        .arg_path(dir.path())
+        .arg_path(&good)
+        .code(1);
+    let doc = json_of(&run.stdout);
+    let entries = doc.as_array().unwrap();
+    assert_eq!(entries.len(), 3, "{}", run.stdout); // the folder's two studies, then good again
+    let bad_entry = entries
+        .iter()
+        .find(|e| e["study"].as_str().unwrap().ends_with("bad.yaml"))
+        .unwrap();
+    assert_eq!(bad_entry["ok"], false);
+    assert!(bad_entry["errors"][0]["line"].is_number(), "{bad_entry}");
+    assert!(entries.iter().any(|e| e["ok"] == true));
+}
+
+#[test]
+fn a_study_can_be_read_from_standard_input() {
+    use std::io::Write;
+    let dir = tempfile::tempdir().unwrap();
+    let study = example_copy(dir.path(), "hplc-assay");
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_plateau"))
+        .args(["check", "-"])
+        .current_dir(study.parent().unwrap())
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(&std::fs::read(&study).unwrap())
+        .unwrap();
+    let out = child.wait_with_output().unwrap();
+    assert!(out.status.success());
+    assert!(String::from_utf8_lossy(&out.stdout).contains("results: 11 runs"));
+}
+
+#[test]
+fn report_and_design_speak_json_for_scripts() {
+    let dir = tempfile::tempdir().unwrap();
+    let study = example_copy(dir.path(), "hplc-assay");
+    let run = plateau(&["report", "--no-pdf", "--json"])
+        .arg_path(&study)
+        .ok();
+    assert_eq!(json_of(&run.stdout)[0]["state"], "written");
+    let run = plateau(&["report", "--no-pdf", "--json"])
+        .arg_path(&study)
+        .ok();
+    assert_eq!(json_of(&run.stdout)[0]["state"], "current");
+    let sheet = json_of(&plateau(&["design", "--json"]).arg_path(&study).ok().stdout);
+    assert_eq!(sheet["runs"].as_array().unwrap().len(), 11);
+    assert_eq!(sheet["runs"][0]["order"], 1);
+}

@@ -43,6 +43,40 @@ pub fn rows(study: &Study, design: &Design, levels: Levels) -> (Vec<String>, Vec
     (header, rows)
 }
 
+/// The run sheet as JSON: one object per run in run order, with `run`, `order`, `nominal` and
+/// the settings by factor id (numbers for numeric factors, level names otherwise).
+pub fn json(study: &Study, design: &Design, levels: Levels) -> serde_json::Value {
+    let runs: Vec<serde_json::Value> = design
+        .runs_in_order()
+        .into_iter()
+        .map(|run| {
+            let mut settings = serde_json::Map::new();
+            for (f, c) in study.factors.iter().zip(&run.coded) {
+                let value = match levels {
+                    Levels::Coded => serde_json::Value::from(*c),
+                    Levels::Real => match f.setting(*c) {
+                        Setting::Value(v) => serde_json::Value::from(v),
+                        Setting::Level(l) => serde_json::Value::from(l),
+                    },
+                };
+                settings.insert(f.id.clone(), value);
+            }
+            serde_json::json!({
+                "run": run.id.0,
+                "order": run.order,
+                "nominal": run.nominal,
+                "settings": settings,
+            })
+        })
+        .collect();
+    serde_json::json!({
+        "study": study.info.id,
+        "levels": match levels { Levels::Coded => "coded", Levels::Real => "real" },
+        "responses": study.responses.iter().map(|r| r.id.clone()).collect::<Vec<_>>(),
+        "runs": runs,
+    })
+}
+
 /// The run sheet as CSV text.
 pub fn csv(study: &Study, design: &Design, levels: Levels) -> String {
     let (header, rows) = rows(study, design, levels);

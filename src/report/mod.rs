@@ -115,11 +115,15 @@ pub fn render_files(
         .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
     files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));
     files.extend(tables::csv_files(evaluated));
-    let record = crate::batch::inputs(
+    let mut record = crate::batch::inputs(
         &evaluated.study,
         options.templates.as_deref(),
         typst_version,
     );
+    record.outputs = files
+        .iter()
+        .map(|(name, bytes)| (name.clone(), crate::study::load::sha256_hex(bytes)))
+        .collect();
     let record = serde_json::to_string_pretty(&record)
         .map_err(|e| ReportError::write(Path::new(crate::batch::RECORD), e))?;
     files.push((
@@ -185,10 +189,30 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
                 "report.pdf",
                 &evaluated.study.info.date,
             )?;
+            record_pdf(staging)?;
         }
         Ok::<(), ReportError>(())
     })?;
     Ok(dest)
+}
+
+/// Adds the typeset PDF's SHA-256 to the input record in the staging folder, so that `status`
+/// tells when report.pdf is edited or replaced after plateau wrote it.
+fn record_pdf(staging: &Path) -> Result<(), ReportError> {
+    let record_path = staging.join(crate::batch::RECORD);
+    let Some(mut record) = crate::batch::recorded(staging) else {
+        return Err(ReportError::write(
+            &record_path,
+            "the input record cannot be read back",
+        ));
+    };
+    let pdf = staging.join("report.pdf");
+    record
+        .outputs
+        .push(("report.pdf".into(), crate::batch::file_hash(&pdf)));
+    let text =
+        serde_json::to_string_pretty(&record).map_err(|e| ReportError::write(&record_path, e))?;
+    std::fs::write(&record_path, text + "\n").map_err(|e| ReportError::write(&record_path, e))
 }
 
 /// Name of the empty package folder given to typst inside the staging folder (removed after

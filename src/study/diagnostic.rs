@@ -62,7 +62,7 @@ impl fmt::Display for FieldPath {
 }
 
 /// One problem found in an input file.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
 pub struct Diagnostic {
     /// The file as the user named it.
     pub file: String,

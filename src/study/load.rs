@@ -14,8 +14,55 @@ use super::{Study, check, schema};
 /// Largest study file accepted, in bytes (a study of the largest design is far smaller).
 pub const MAX_STUDY_BYTES: u64 = 4 * 1024 * 1024;
 
-/// Loads and checks a study file.
+/// The path that names standard input (`plateau check -`).
+pub const STDIN: &str = "-";
+
+/// Loads and checks a study file; the path `-` reads the study from standard input (files it
+/// names are then found from the current folder).
 pub fn load(path: &Path) -> Result<Study, Diagnostics> {
+    if path == Path::new(STDIN) {
+        let file_name = "<stdin>".to_string();
+        // Read once per process: `check` plans and then evaluates the same study.
+        static STDIN_BYTES: std::sync::OnceLock<Result<Vec<u8>, String>> =
+            std::sync::OnceLock::new();
+        let read = STDIN_BYTES.get_or_init(|| {
+            let mut bytes = Vec::new();
+            std::io::Read::read_to_end(
+                &mut std::io::Read::take(std::io::stdin().lock(), MAX_STUDY_BYTES + 1),
+                &mut bytes,
+            )
+            .map(|_| bytes)
+            .map_err(|e| e.to_string())
+        });
+        let bytes = match read {
+            Ok(b) => b.clone(),
+            Err(e) => {
+                return Err(Diagnostics(vec![Diagnostic::field(
+                    &file_name,
+                    &FieldPath::root(),
+                    format!("failed to read standard input ({e})"),
+                    None,
+                )]));
+            }
+        };
+        if bytes.len() as u64 > MAX_STUDY_BYTES {
+            return Err(Diagnostics(vec![Diagnostic::field(
+                &file_name,
+                &FieldPath::root(),
+                format!("standard input holds more than {MAX_STUDY_BYTES} bytes"),
+                Some("a study file of at most 4 MiB".into()),
+            )]));
+        }
+        let text = decode(&bytes, &file_name)?;
+        let study_file = parse(&text, &file_name)?;
+        return check::study(
+            Path::new("./<stdin>"),
+            &file_name,
+            &text,
+            sha256_hex(&bytes),
+            study_file,
+        );
+    }
     let file_name = path.display().to_string();
     let bytes = read_limited(path, MAX_STUDY_BYTES, &file_name)?;
     let text = decode(&bytes, &file_name)?;
