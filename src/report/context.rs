@@ -458,7 +458,10 @@ pub fn build(evaluated: &Evaluated, typst_version: Option<&str>, figures: &Figur
             .iter()
             .map(|e| ExcludedText {
                 run: e.run.0.clone(),
-                reason: e.reason.clone(),
+                reason: match e.response.and_then(|r| study.responses.get(r)) {
+                    Some(resp) => format!("{} (for {} only)", e.reason, resp.name),
+                    None => e.reason.clone(),
+                },
             })
             .collect(),
         approval: vec![
@@ -531,6 +534,7 @@ fn run_table(evaluated: &Evaluated) -> RunTable {
         design,
         data,
         analysis,
+        ..
     } = evaluated;
     let used: Vec<bool> = (0..analysis.responses.len())
         .map(|r| has_used_values(evaluated, r))
@@ -552,11 +556,7 @@ fn run_table(evaluated: &Evaluated) -> RunTable {
         .iter()
         .map(|a| a.values.iter().map(|v| (v.run.as_str(), v)).collect())
         .collect();
-    let reasons: std::collections::HashMap<&str, &str> = study
-        .excluded
-        .iter()
-        .map(|e| (e.run.0.as_str(), e.reason.as_str()))
-        .collect();
+    let reasons = exclusion_reasons(study);
     let rows = design
         .runs_in_order()
         .into_iter()
@@ -585,7 +585,7 @@ fn run_table(evaluated: &Evaluated) -> RunTable {
                 if used.get(r).copied().unwrap_or(false) {
                     let value = lookups.get(r).and_then(|m| m.get(run.id.0.as_str()));
                     cells.push(match value {
-                        Some(v) if v.excluded || excluded.is_some() => "not used".to_string(),
+                        Some(v) if v.excluded => "not used".to_string(),
                         Some(v) => numbers.derived(v.value),
                         None => String::new(),
                     });
@@ -605,6 +605,25 @@ fn run_table(evaluated: &Evaluated) -> RunTable {
         rows,
         corrected: used.iter().any(|u| *u),
     }
+}
+
+/// Why each excluded run was left out, by run id: the reason, prefixed with the responses it
+/// concerns when the run was excluded for some responses only (`for assay only: ...`).
+pub fn exclusion_reasons(study: &crate::study::Study) -> std::collections::HashMap<&str, String> {
+    let mut out: std::collections::HashMap<&str, String> = std::collections::HashMap::new();
+    for e in &study.excluded {
+        let text = match e.response.and_then(|r| study.responses.get(r)) {
+            Some(resp) => format!("for {} only: {}", resp.id, e.reason),
+            None => e.reason.clone(),
+        };
+        out.entry(e.run.0.as_str())
+            .and_modify(|t| {
+                t.push_str("; ");
+                t.push_str(&text);
+            })
+            .or_insert(text);
+    }
+    out
 }
 
 fn paragraphs(text: &str) -> Vec<String> {
