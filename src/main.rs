@@ -56,6 +56,23 @@ enum Command {
         #[arg(long, value_name = "P", default_value_t = plateau::analysis::power::DEFAULT_TARGET)]
         target: f64,
     },
+    /// Before the study: write the protocol folder for review and approval (protocol.pdf, its
+    /// Typst source, the run sheet as CSV) and protocol.lock.json, the lock of the planning
+    /// content that the report later compares the study with.
+    #[command(after_help = EXIT_CODES)]
+    Protocol {
+        /// The study file (results are not needed).
+        study: PathBuf,
+        /// Protocol folder [default: <study stem>-protocol beside the study file].
+        #[arg(short, long, value_name = "DIR")]
+        output: Option<PathBuf>,
+        /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
+        #[arg(long, value_name = "PATH")]
+        typst: Option<PathBuf>,
+        /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
+        #[arg(long, value_name = "SECONDS")]
+        typst_timeout: Option<u64>,
+    },
     /// After the study: write a study file with the fold-over runs that separate its
     /// unresolved alias chains (both blocks in one file, analysed together).
     #[command(name = "follow-up", after_help = EXIT_CODES)]
@@ -340,6 +357,40 @@ fn run(command: Command) -> Result<(), Failure> {
                 None => {
                     println!("ok  no results yet: `plateau design` prints the run sheet to fill in")
                 }
+            }
+            Ok(())
+        }
+        Command::Protocol {
+            study,
+            output,
+            typst: typst_path,
+            typst_timeout,
+        } => {
+            let mut s = plateau::study::load(&study)?;
+            // The lock the study names is checked when it exists (the first run writes it).
+            if plateau::protocol::lock_path(&s).is_some_and(|p| p.exists()) {
+                s.lock = plateau::protocol::read_lock(&s)?;
+            }
+            let design = plateau::design::plan(&s)?;
+            let dir = output.unwrap_or_else(|| report::protocol::default_dir(&study));
+            let typst = find_typst(typst_path.as_deref(), typst_timeout)?;
+            let lock = report::protocol::write(&s, &design, &typst, &dir).map_err(|e| match e {
+                report::ReportError::Typst(e) => Failure::Typesetter(e.to_string()),
+                other => Failure::Other(other.to_string()),
+            })?;
+            println!(
+                "ok  protocol written to {} (planning content SHA-256 {})",
+                dir.display(),
+                lock.planning_sha256
+            );
+            if s.protocol.is_none() {
+                let base = study.parent().unwrap_or(std::path::Path::new(""));
+                let lock_file = dir.join(plateau::protocol::LOCK_FILE);
+                let shown = lock_file.strip_prefix(base).unwrap_or(&lock_file);
+                println!(
+                    "hint: once the protocol is approved, name its lock in the study file:\n  protocol: {{ lock: {}, number: ..., approved: YYYY-MM-DD }}",
+                    shown.display()
+                );
             }
             Ok(())
         }

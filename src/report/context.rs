@@ -655,9 +655,13 @@ pub fn superscript(text: &str) -> String {
 }
 
 fn design_text(evaluated: &Evaluated) -> DesignText {
-    let design = &evaluated.design;
+    design_words(&evaluated.study, &evaluated.design)
+}
+
+/// The design in words, from the plan alone (the report and the protocol share it).
+pub fn design_words(study: &crate::study::Study, design: &crate::design::Design) -> DesignText {
     let st = &design.structure;
-    let k = evaluated.study.factors.len();
+    let k = study.factors.len();
     let kind = match design.kind {
         crate::study::DesignKind::FullFactorial => {
             format!("full factorial 2{}", superscript(&k.to_string()))
@@ -772,7 +776,7 @@ fn design_text(evaluated: &Evaluated) -> DesignText {
             .skip(design.k().saturating_sub(design.dummies))
             .cloned()
             .collect(),
-        partial_aliases: partial_alias_rows(evaluated),
+        partial_aliases: partial_alias_rows(study, design),
         nominal_runs: nominal_runs_text(design),
         plackett_burman: design.kind == crate::study::DesignKind::PlackettBurman,
         youden: design.kind == crate::study::DesignKind::Youden || st.youden,
@@ -780,10 +784,12 @@ fn design_text(evaluated: &Evaluated) -> DesignText {
 }
 
 /// Partial aliases grouped by main effect, in factor order, with the distinct |r| values.
-fn partial_alias_rows(evaluated: &Evaluated) -> Vec<PartialAliasRow> {
-    let st = &evaluated.design.structure;
-    evaluated
-        .study
+fn partial_alias_rows(
+    study: &crate::study::Study,
+    design: &crate::design::Design,
+) -> Vec<PartialAliasRow> {
+    let st = &design.structure;
+    study
         .factors
         .iter()
         .filter_map(|f| {
@@ -835,7 +841,7 @@ fn nominal_runs_text(design: &crate::design::Design) -> Option<String> {
 }
 
 /// `a`, `a and b`, `a, b and c`.
-fn and_list(items: &[String]) -> String {
+pub fn and_list(items: &[String]) -> String {
     match items {
         [] => String::new(),
         [one] => one.clone(),
@@ -844,7 +850,7 @@ fn and_list(items: &[String]) -> String {
 }
 
 /// A factor's nominal setting with its unit.
-fn nominal_text(f: &Factor) -> String {
+pub fn nominal_text(f: &Factor) -> String {
     match (&f.levels, &f.unit) {
         (Levels::Numeric { .. }, Some(u)) => format!("{} {u}", setting_of(f, 0)),
         _ => setting_of(f, 0),

@@ -13,6 +13,7 @@ pub mod figures;
 pub mod format;
 pub mod judging;
 pub mod power;
+pub mod protocol;
 pub mod render;
 pub mod runsheet;
 pub mod tables;
