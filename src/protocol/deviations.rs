@@ -67,15 +67,7 @@ pub fn record(study: &Study, order: &[OrderChange]) -> Option<ProtocolRecord> {
     let lock = study.lock.as_ref()?;
     let spec = study.protocol.as_ref()?;
     let mut deviations = compare(&lock.planning, &study.planning);
-    deviations.extend(order.iter().map(|c| Deviation {
-        field: format!("results[{}].order", c.run),
-        protocol: c.planned.to_string(),
-        study: match &c.time {
-            Some(t) => format!("{} (at {t})", c.executed),
-            None => c.executed.to_string(),
-        },
-        justification: None,
-    }));
+    deviations.extend(order_deviations(order));
     for d in &mut deviations {
         let reasons: Vec<&str> = spec
             .deviations
@@ -94,6 +86,22 @@ pub fn record(study: &Study, order: &[OrderChange]) -> Option<ProtocolRecord> {
         approved: spec.approved.clone(),
         deviations,
     })
+}
+
+/// The runs performed out of their planned order, as deviations (`results[5].order`).
+pub fn order_deviations(order: &[OrderChange]) -> Vec<Deviation> {
+    order
+        .iter()
+        .map(|c| Deviation {
+            field: format!("results[{}].order", c.run),
+            protocol: c.planned.to_string(),
+            study: match &c.time {
+                Some(t) => format!("{} (at {t})", c.executed),
+                None => c.executed.to_string(),
+            },
+            justification: None,
+        })
+        .collect()
 }
 
 /// True when a justification written for `named` applies to the deviation at `field`: the

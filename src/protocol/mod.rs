@@ -195,7 +195,7 @@ pub fn read_lock(study: &Study) -> Result<Option<Lock>, Diagnostics> {
                 "the protocol lock {shown} no longer matches its own SHA-256: its planning content was edited after it was written"
             ),
             &format!(
-                "expected the lock as approved: restore it from version control (e.g. `git checkout -- {}`); record a change of plan in the study file, where the report lists it as a deviation with `protocol: deviations:`, never in the lock",
+                "expected the lock as `plateau protocol` wrote it: restore it from version control (e.g. `git checkout -- {}`); change the plan in the study file instead, where the report lists each change as a deviation (justified under `protocol: deviations:`)",
                 spec.lock
             ),
         ));

@@ -69,6 +69,60 @@ pub struct Context {
     pub approval: Vec<Signatory>,
     /// True when any response has a figure.
     pub has_figures: bool,
+    /// The comparison with the approved protocol, or with the planned run order when the
+    /// study names no protocol but runs were performed out of order (`None`: neither).
+    pub deviations: Option<DeviationsText>,
+    /// The report's revision: its document version and the SHA-256 of the report it replaces.
+    pub revision: Option<RevisionText>,
+}
+
+/// The deviations section.
+#[derive(Debug, Serialize)]
+pub struct DeviationsText {
+    /// True when the study names a protocol lock (else only the run order is compared).
+    pub locked: bool,
+    /// Protocol number, if given.
+    pub number: Option<String>,
+    /// Approval date, if given.
+    pub approved: Option<String>,
+    /// The lock file as named in the study.
+    pub lock: String,
+    /// SHA-256 of the locked planning content.
+    pub sha256: String,
+    /// One row per changed field.
+    pub rows: Vec<crate::protocol::deviations::Deviation>,
+}
+
+/// The report's revision.
+#[derive(Debug, Clone, Serialize)]
+pub struct RevisionText {
+    /// Document version (`report: version:`), if given.
+    pub version: Option<String>,
+    /// SHA-256 of the report.pdf this report replaces, when the folder held one.
+    pub previous_sha256: Option<String>,
+}
+
+/// The deviations section of an evaluated study.
+pub fn deviations_text(evaluated: &Evaluated) -> Option<DeviationsText> {
+    match &evaluated.protocol {
+        Some(p) => Some(DeviationsText {
+            locked: true,
+            number: p.number.clone(),
+            approved: p.approved.clone(),
+            lock: p.lock.clone(),
+            sha256: p.lock_sha256.clone(),
+            rows: p.deviations.clone(),
+        }),
+        None if !evaluated.order_changes.is_empty() => Some(DeviationsText {
+            locked: false,
+            number: None,
+            approved: None,
+            lock: String::new(),
+            sha256: String::new(),
+            rows: crate::protocol::deviations::order_deviations(&evaluated.order_changes),
+        }),
+        None => None,
+    }
 }
 
 /// One nominal condition of the method.
@@ -479,6 +533,8 @@ pub fn build(evaluated: &Evaluated, typst_version: Option<&str>, figures: &Figur
             },
         ],
         has_figures,
+        deviations: deviations_text(evaluated),
+        revision: None,
         study: StudyText {
             id: study.info.id.clone(),
             title: study.info.title.clone(),

@@ -112,7 +112,7 @@ pub fn render_files(
     ];
     // Each figure's SVG and, beside it, the CSV of its plotted values.
     files.extend(figures.files());
-    let json = serde_json::to_string_pretty(&evaluated.analysis)
+    let json = serde_json::to_string_pretty(&analysis_document(evaluated))
         .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
     files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));
     files.extend(tables::csv_files(evaluated));
@@ -148,6 +148,28 @@ pub fn render_files(
         files.push((name, bytes));
     }
     Ok(files)
+}
+
+/// The analysis as analysis.json carries it: the analysis, with `protocol` (lock SHA-256 and
+/// deviations) when the study names a protocol lock, and `order_changes` when runs were
+/// performed out of their planned order.
+pub fn analysis_document(evaluated: &Evaluated) -> serde_json::Value {
+    let mut doc = serde_json::to_value(&evaluated.analysis).unwrap_or_default();
+    if let serde_json::Value::Object(map) = &mut doc {
+        if let Some(p) = &evaluated.protocol {
+            map.insert(
+                "protocol".into(),
+                serde_json::to_value(p).unwrap_or_default(),
+            );
+        }
+        if !evaluated.order_changes.is_empty() {
+            map.insert(
+                "order_changes".into(),
+                serde_json::to_value(&evaluated.order_changes).unwrap_or_default(),
+            );
+        }
+    }
+    doc
 }
 
 /// Writes the report folder and returns its path.
