@@ -213,6 +213,10 @@ enum Command {
         /// Replace an existing PDF.
         #[arg(long)]
         force: bool,
+        /// Why the study was changed: printed with the author (the new version's analyst) and
+        /// recorded in the change summary, for the re-approval.
+        #[arg(long, value_name = "TEXT")]
+        reason: Option<String>,
         /// The typst binary (with --pdf) [default: $PLATEAU_TYPST, then `typst` on the PATH].
         #[arg(long, value_name = "PATH")]
         typst: Option<PathBuf>,
@@ -722,9 +726,15 @@ fn run(command: Command) -> Result<(), Failure> {
             pdf,
             output,
             force,
+            reason,
             typst: typst_path,
             typst_timeout,
         } => {
+            if reason.as_deref().is_some_and(|r| r.trim().is_empty()) {
+                return Err(Failure::Usage(
+                    "--reason needs a text: why the study was changed".into(),
+                ));
+            }
             let new_path = match (&new, &rev) {
                 (Some(n), _) => n.clone(),
                 (None, Some(_)) => old.clone(),
@@ -762,9 +772,12 @@ fn run(command: Command) -> Result<(), Failure> {
             } else {
                 new_path.display().to_string()
             };
-            let d = plateau::diff::compare(&old_evaluated, &new_evaluated)
+            let mut d = plateau::diff::compare(&old_evaluated, &new_evaluated)
                 .with_labels(old_label, new_label)
                 .with_files(old_file, new_path.display().to_string());
+            if let Some(text) = &reason {
+                d = d.with_reason(text.trim(), new_evaluated.study.info.analyst.clone());
+            }
             if let Some(t) = typesetter {
                 let out = output
                     .as_deref()
@@ -774,6 +787,12 @@ fn run(command: Command) -> Result<(), Failure> {
                     other => Failure::Other(other.to_string()),
                 })?;
                 println!("ok  change summary written to {}", out.display());
+                if let Some(r) = &d.reason {
+                    println!(
+                        "reason for the change: {}\nchanged by: {}",
+                        r.text, r.author
+                    );
+                }
             } else if json {
                 let text =
                     serde_json::to_string_pretty(&d).map_err(|e| Failure::Other(e.to_string()))?;

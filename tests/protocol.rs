@@ -324,3 +324,85 @@ fn a_run_excluded_for_one_response_is_still_used_for_the_others() {
         run.stderr
     );
 }
+
+#[test]
+fn diff_prints_the_reason_for_the_change_and_its_author() {
+    let (dir, old) = study_copy();
+    let new = dir.path().join("new.yaml");
+    std::fs::copy(&old, &new).unwrap();
+    edit(&new, "effect-limit: 2.0", "effect-limit: 2.5");
+    let reason = "limit aligned with the revised specification";
+    let run = plateau(&["diff", "--reason", reason])
+        .arg_path(&old)
+        .arg_path(&new)
+        .ok();
+    assert!(
+        run.stdout.contains(&format!(
+            "reason for the change: {reason}\nchanged by: I. Marsh\n"
+        )),
+        "{}",
+        run.stdout
+    );
+    let pdf = dir.path().join("change.pdf");
+    let run = plateau(&[
+        "diff",
+        "--pdf",
+        "--typst",
+        &typst_arg(),
+        "--reason",
+        reason,
+        "-o",
+    ])
+    .arg_path(&pdf)
+    .arg_path(&old)
+    .arg_path(&new)
+    .ok();
+    assert!(
+        run.stdout
+            .contains(&format!("reason for the change: {reason}")),
+        "{}",
+        run.stdout
+    );
+    let text = pdf_text(&pdf);
+    assert!(text.contains("limit aligned with the revised"), "{text}");
+    plateau(&["diff", "--reason", " "])
+        .arg_path(&old)
+        .arg_path(&new)
+        .code(2);
+}
+
+#[test]
+fn a_new_revision_records_its_version_and_the_hash_of_the_report_it_replaces() {
+    let (dir, study) = study_copy();
+    let out = dir.path().join("report");
+    let report = || {
+        plateau(&["report", "--typst", &typst_arg(), "-o"])
+            .arg_path(&out)
+            .arg_path(&study)
+            .ok();
+    };
+    report();
+    let first = std::fs::read(out.join("report.pdf")).unwrap();
+    let doc = json_of(&std::fs::read_to_string(out.join("analysis.json")).unwrap());
+    assert!(
+        doc["revision"].is_null(),
+        "a first report without a version has no revision"
+    );
+    edit(&study, "effect-limit: 2.0", "effect-limit: 2.5");
+    let mut text = std::fs::read_to_string(&study).unwrap();
+    text.push_str("report:\n  version: \"2\"\n");
+    std::fs::write(&study, text).unwrap();
+    report();
+    let second = std::fs::read(out.join("report.pdf")).unwrap();
+    let doc = json_of(&std::fs::read_to_string(out.join("analysis.json")).unwrap());
+    let previous = plateau::study::load::sha256_hex(&first);
+    assert_eq!(doc["revision"]["version"], "2");
+    assert_eq!(doc["revision"]["previous_report_sha256"], previous.as_str());
+    assert!(pdf_text(&out.join("report.pdf")).contains(&previous));
+    // Rebuilt from the same inputs it is the same revision, byte for byte.
+    plateau(&["report", "--force", "--typst", &typst_arg(), "-o"])
+        .arg_path(&out)
+        .arg_path(&study)
+        .ok();
+    assert_eq!(std::fs::read(out.join("report.pdf")).unwrap(), second);
+}

@@ -33,6 +33,7 @@ pub fn compare(old: &Evaluated, new: &Evaluated) -> StudyDiff {
         new: version(new),
         inputs: inputs(old, new),
         outputs: outputs(old, new),
+        reason: None,
     }
 }
 

@@ -96,10 +96,12 @@ pub fn default_dir(study_path: &Path) -> PathBuf {
 pub fn render_files(
     evaluated: &Evaluated,
     options: &Options,
+    revision: Option<&context::RevisionText>,
 ) -> Result<Vec<(String, Vec<u8>)>, ReportError> {
     let typst_version = options.typst.as_ref().map(|t| t.version.as_str());
     let figures = figures::build(evaluated)?;
-    let ctx = context::build(evaluated, typst_version, &figures);
+    let mut ctx = context::build(evaluated, typst_version, &figures);
+    ctx.revision = revision.cloned();
     let user = options.templates.as_deref();
     let env = render::environment(user);
     let value = minijinja::Value::from(minijinja::value::Serde(&ctx));
@@ -112,7 +114,17 @@ pub fn render_files(
     ];
     // Each figure's SVG and, beside it, the CSV of its plotted values.
     files.extend(figures.files());
-    let json = serde_json::to_string_pretty(&analysis_document(evaluated))
+    let mut document = analysis_document(evaluated);
+    if let (Some(r), serde_json::Value::Object(map)) = (revision, &mut document) {
+        map.insert(
+            "revision".into(),
+            serde_json::json!({
+                "version": r.version,
+                "previous_report_sha256": r.previous_sha256,
+            }),
+        );
+    }
+    let json = serde_json::to_string_pretty(&document)
         .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
     files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));
     files.extend(tables::csv_files(evaluated));
@@ -172,6 +184,39 @@ pub fn analysis_document(evaluated: &Evaluated) -> serde_json::Value {
     doc
 }
 
+/// The report's revision: the document version (`report: version:`) and, when `dest` already
+/// holds a report.pdf, its SHA-256 (the revision this report replaces). A rebuild from the same
+/// inputs is the same revision: it keeps what the earlier build recorded, so reruns stay
+/// byte-identical.
+pub fn revision(evaluated: &Evaluated, dest: &Path) -> Option<context::RevisionText> {
+    let version = evaluated.study.report.version.clone();
+    let previous = previous_report(evaluated, dest);
+    (version.is_some() || previous.is_some()).then_some(context::RevisionText {
+        version,
+        previous_sha256: previous,
+    })
+}
+
+/// Largest earlier report.pdf hashed (a chapter is far smaller).
+const MAX_PREVIOUS_PDF: u64 = 512 * 1024 * 1024;
+
+fn previous_report(evaluated: &Evaluated, dest: &Path) -> Option<String> {
+    let pdf = dest.join("report.pdf");
+    let shown = pdf.display().to_string();
+    let bytes = crate::study::load::read_limited(&pdf, MAX_PREVIOUS_PDF, &shown).ok()?;
+    let now = crate::batch::inputs(&evaluated.study, None, None);
+    let same_inputs = crate::batch::recorded(dest)
+        .is_some_and(|r| r.study.1 == now.study.1 && r.data == now.data);
+    if same_inputs {
+        let text = std::fs::read_to_string(dest.join("analysis.json")).ok()?;
+        let doc: serde_json::Value = serde_json::from_str(&text).ok()?;
+        return doc["revision"]["previous_report_sha256"]
+            .as_str()
+            .map(str::to_string);
+    }
+    Some(crate::study::load::sha256_hex(&bytes))
+}
+
 /// Writes the report folder and returns its path.
 pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, ReportError> {
     let dest = options
@@ -196,7 +241,8 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
         }
         .into());
     }
-    let files = render_files(evaluated, options)?;
+    let revision = revision(evaluated, &dest);
+    let files = render_files(evaluated, options, revision.as_ref())?;
     crate::output::write_folder(&dest, "report folder", &files, |staging| {
         if let Some(typst) = &options.typst {
             typeset(
