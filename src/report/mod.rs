@@ -96,6 +96,14 @@ pub fn default_dir(study_path: &Path) -> PathBuf {
 pub fn render_files(
     evaluated: &Evaluated,
     options: &Options,
+) -> Result<Vec<(String, Vec<u8>)>, ReportError> {
+    render_revision(evaluated, options, None)
+}
+
+/// [`render_files`] for a given revision (document version and the report it replaces).
+pub fn render_revision(
+    evaluated: &Evaluated,
+    options: &Options,
     revision: Option<&context::RevisionText>,
 ) -> Result<Vec<(String, Vec<u8>)>, ReportError> {
     let typst_version = options.typst.as_ref().map(|t| t.version.as_str());
@@ -242,7 +250,7 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
         .into());
     }
     let revision = revision(evaluated, &dest);
-    let files = render_files(evaluated, options, revision.as_ref())?;
+    let files = render_revision(evaluated, options, revision.as_ref())?;
     crate::output::write_folder(&dest, "report folder", &files, |staging| {
         if let Some(typst) = &options.typst {
             typeset(
