@@ -239,7 +239,7 @@ fn methods(study: &Study, design: &Design) -> Vec<String> {
 fn cautions(study: &Study) -> Vec<String> {
     let mut out = Vec::new();
     for f in &study.factors {
-        let Levels::Numeric { low, high, .. } = f.levels else {
+        let Levels::Numeric { .. } = f.levels else {
             continue;
         };
         let name = f.name.to_lowercase();
@@ -250,10 +250,8 @@ fn cautions(study: &Study) -> Vec<String> {
             setting_of(f, 1),
             unit_suffix(&f.unit)
         );
-        let _ = (low, high);
-        let text = if name.contains("ph")
-            && (name.contains(" ph") || name.starts_with("ph") || unit == "ph")
-        {
+        let words: Vec<&str> = name.split(|c: char| !c.is_alphanumeric()).collect();
+        let text = if words.contains(&"ph") || unit == "ph" {
             format!(
                 "{} is set from {range}: check that the column, the buffer capacity and the sample are stable at both levels.",
                 f.name
