@@ -352,6 +352,22 @@ fn run(command: Command) -> Result<(), Failure> {
                     eprintln!("warning: {w}");
                 }
             }
+            if let Some(lock) = &s.lock {
+                let changed =
+                    plateau::protocol::deviations::compare(&lock.planning, &s.planning).len();
+                println!(
+                    "ok  protocol lock {}: its content matches its SHA-256; {}",
+                    lock.file,
+                    match changed {
+                        0 => "the plan is unchanged since the lock".to_string(),
+                        1 => "1 field of the plan changed since (a deviation in the report)"
+                            .to_string(),
+                        n => format!(
+                            "{n} fields of the plan changed since (deviations in the report)"
+                        ),
+                    }
+                );
+            }
             match results {
                 Some(evaluated) => println!(
                     "ok  results: {} runs × {} responses",
