@@ -662,7 +662,12 @@ fn run(command: Command) -> Result<(), Failure> {
                 .map(|t| t.version);
             let mut not_current = 0;
             for file in &files {
-                let line = match plateau::study::load(file) {
+                // The protocol lock is checked as `report` would check it.
+                let loaded = plateau::study::load(file).and_then(|mut s| {
+                    s.lock = plateau::protocol::read_lock(&s)?;
+                    Ok(s)
+                });
+                let line = match loaded {
                     Err(d) => format!(
                         "invalid  {}: {}",
                         file.display(),

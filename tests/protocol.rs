@@ -128,6 +128,8 @@ fn a_lock_edited_after_it_was_written_is_refused_with_its_name_and_the_remedy() 
         );
         assert!(run.stderr.contains("git checkout --"), "{}", run.stderr);
     }
+    let run = plateau(&["status"]).arg_path(&study).code(1);
+    assert!(run.stdout.contains("invalid"), "{}", run.stdout);
     // Writing the protocol again into the folder of the approved one is refused, too.
     let run = plateau(&["protocol", "--typst", &typst_arg()])
         .arg_path(&study)
@@ -405,4 +407,40 @@ fn a_new_revision_records_its_version_and_the_hash_of_the_report_it_replaces() {
         .arg_path(&study)
         .ok();
     assert_eq!(std::fs::read(out.join("report.pdf")).unwrap(), second);
+}
+
+#[test]
+fn inline_results_carry_the_executed_order_and_time_too() {
+    let dir = tempfile::tempdir().unwrap();
+    let study = dir.path().join("inline.yaml");
+    std::fs::write(
+        &study,
+        "schema: 1
+study: { id: T-1, title: Inline, method: M-1, analyst: A. Analyst, date: 2026-11-18 }
+factors:
+  - { id: temp, name: Column temperature, unit: °C, nominal: 35, delta: 2 }
+  - { id: ph, name: pH, nominal: 3.0, delta: 0.1 }
+design: { kind: full-factorial, center-points: 1 }
+responses:
+  - { id: assay, name: Assay }
+results:
+  runs:
+    - { run: 1, assay: 100.1 }
+    - { run: 2, assay: 100.3 }
+    - { run: 3, assay: 99.1, order: 7, time: \"10:40\" }
+    - { run: 4, assay: 99.5 }
+    - { run: 5, assay: 100.0 }
+",
+    )
+    .unwrap();
+    let doc = analysis(&study, "inline-report");
+    assert_eq!(
+        doc["order_changes"],
+        serde_json::json!([{"run": "3", "planned": 4, "executed": 7, "time": "10:40"}])
+    );
+    let source = section(&dir.path().join("inline-report"));
+    assert!(
+        source.contains("== Deviations from the planned run order"),
+        "{source}"
+    );
 }

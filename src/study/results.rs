@@ -288,8 +288,27 @@ fn inline_rows(study: &Study, runs: &[BTreeMap<String, Value>]) -> Result<Vec<Ro
                 continue;
             }
         };
+        // `order` and `time`: the position and time the run was performed at, as in the CSV.
+        let order = match entry.get("order") {
+            None => None,
+            Some(v) => match v.as_u64().filter(|n| *n >= 1) {
+                Some(n) => Some(n as usize),
+                None => {
+                    problems.push(study.diagnostic(
+                        &here.key("order"),
+                        format!("run `{run}`: order `{v}` is not a position in the run order"),
+                        Some("expected the position the run was performed at (1, 2, ...)".into()),
+                    ));
+                    None
+                }
+            },
+        };
+        let time = entry.get("time").map(|v| match v {
+            Value::String(s) => s.clone(),
+            other => other.to_string(),
+        });
         for key in entry.keys() {
-            if key != "run" && !ids.contains(&key.as_str()) {
+            if key != "run" && key != "order" && key != "time" && !ids.contains(&key.as_str()) {
                 let hint = closest(key, ids.iter().copied())
                     .map(|b| format!("did you mean `{b}`? "))
                     .unwrap_or_default();
@@ -361,8 +380,8 @@ fn inline_rows(study: &Study, runs: &[BTreeMap<String, Value>]) -> Result<Vec<Ro
                 position: locator.value(&here.key("run").0),
                 field: here.key("run").to_string(),
             },
-            order: None,
-            time: None,
+            order,
+            time,
         });
     }
     if problems.is_empty() {
