@@ -353,8 +353,22 @@ fn run(command: Command) -> Result<(), Failure> {
                 }
             }
             if let Some(lock) = &s.lock {
-                let changed =
-                    plateau::protocol::deviations::compare(&lock.planning, &s.planning).len();
+                let deviations =
+                    plateau::protocol::deviations::compare(&lock.planning, &s.planning);
+                let changed = deviations.len();
+                // A justification that names no changed field is likely a typo in its field.
+                for j in s.protocol.iter().flat_map(|p| &p.deviations) {
+                    let plan_field = !j.field.trim().starts_with("results");
+                    let used = deviations
+                        .iter()
+                        .any(|d| plateau::protocol::deviations::covers(&j.field, &d.field));
+                    if plan_field && !used {
+                        eprintln!(
+                            "warning: protocol.deviations: `{}` names no field that changed since the lock; the justification is not shown\nhint: use the field as `check` and the report name it, e.g. factors[temp].delta",
+                            j.field
+                        );
+                    }
+                }
                 println!(
                     "ok  protocol lock {}: its content matches its SHA-256; {}",
                     lock.file,
@@ -367,6 +381,9 @@ fn run(command: Command) -> Result<(), Failure> {
                         ),
                     }
                 );
+                for d in &deviations {
+                    println!("      {}: {} → {}", d.field, d.protocol, d.study);
+                }
             }
             match results {
                 Some(evaluated) => println!(

@@ -173,8 +173,25 @@ fn every_change_of_a_level_a_criterion_or_the_design_after_the_lock_is_listed() 
     edit(&study, "effect-limit: 2.0", "effect-limit: 2.5");
     edit(&study, "seed: 20261118", "seed: 20261119");
     let mut text = std::fs::read_to_string(&study).unwrap();
-    text.push_str("  deviations:\n    - field: factors[ph]\n      justification: buffer range widened at review\n");
+    text.push_str("  deviations:\n    - field: factors[ph]\n      justification: buffer range widened at review\n    - field: factors[flw]\n      justification: a typo in the field\n");
     std::fs::write(&study, text).unwrap();
+    let run = plateau(&["check"]).arg_path(&study).ok();
+    assert!(
+        run.stdout.contains("3 fields of the plan changed since"),
+        "{}",
+        run.stdout
+    );
+    assert!(
+        run.stdout.contains("factors[ph].delta: 0.1 → 0.15"),
+        "{}",
+        run.stdout
+    );
+    assert!(
+        run.stderr
+            .contains("warning: protocol.deviations: `factors[flw]` names no field that changed"),
+        "{}",
+        run.stderr
+    );
     let doc = analysis(&study, "changed");
     let rows: Vec<(String, String, String, Option<String>)> = doc["protocol"]["deviations"]
         .as_array()

@@ -106,7 +106,7 @@ pub fn order_deviations(order: &[OrderChange]) -> Vec<Deviation> {
 
 /// True when a justification written for `named` applies to the deviation at `field`: the
 /// same field, or a part of the study file containing it.
-fn covers(named: &str, field: &str) -> bool {
+pub fn covers(named: &str, field: &str) -> bool {
     let named = named.trim();
     field == named
         || field
