@@ -420,6 +420,17 @@ fn run(command: Command) -> Result<(), Failure> {
                 dir.display(),
                 lock.planning_sha256
             );
+            if let Some(old) = s
+                .lock
+                .as_ref()
+                .filter(|l| l.planning_sha256 != lock.planning_sha256)
+            {
+                println!(
+                    "note: the plan differs from the locked protocol {} in {} field(s): this is a revised protocol, printed without the old number and approval date",
+                    old.file,
+                    plateau::protocol::deviations::compare(&old.planning, &s.planning).len()
+                );
+            }
             if s.protocol.is_none() {
                 let base = study.parent().unwrap_or(std::path::Path::new(""));
                 let lock_file = dir.join(plateau::protocol::LOCK_FILE);

@@ -382,6 +382,12 @@ pub fn build(study: &Study, design: &Design, lock: &Lock) -> ProtocolContext {
         })
         .collect();
     let (power, power_target) = power_tables(study, design);
+    // The number and approval date in the study belong to the locked plan: a changed plan is
+    // a revision, printed without them (it gets its own number when it is approved).
+    let same_plan = study
+        .lock
+        .as_ref()
+        .is_none_or(|l| l.planning_sha256 == lock.planning_sha256);
     let factors: Vec<String> = study.factors.iter().map(|f| f.name.clone()).collect();
     let responses: Vec<String> = study.responses.iter().map(|r| r.name.clone()).collect();
     ProtocolContext {
@@ -393,8 +399,12 @@ pub fn build(study: &Study, design: &Design, lock: &Lock) -> ProtocolContext {
             date: study.info.date.clone(),
             objective: study.info.objective.clone(),
         },
-        number: study.protocol.as_ref().and_then(|p| p.number.clone()),
-        approved: study.protocol.as_ref().and_then(|p| p.approved.clone()),
+        number: same_plan
+            .then(|| study.protocol.as_ref().and_then(|p| p.number.clone()))
+            .flatten(),
+        approved: same_plan
+            .then(|| study.protocol.as_ref().and_then(|p| p.approved.clone()))
+            .flatten(),
         scope: format!(
             "The study will vary {} operating {} of method {} ({}) around their nominal settings and record {} {} ({}) in {} runs.",
             study.factors.len(),
@@ -521,10 +531,10 @@ pub fn write(
             sheet::csv(study, design, sheet::Levels::Real).into_bytes(),
         ),
     ];
-    let date = study
-        .protocol
-        .as_ref()
-        .and_then(|p| p.approved.clone())
+    // The PDF is dated by its approval (when this is the approved plan), else the study date.
+    let date = ctx
+        .approved
+        .clone()
         .unwrap_or_else(|| study.info.date.clone());
     crate::output::write_folder(dest, "protocol folder", &files, |staging| {
         super::typeset(typst, staging, SOURCE_FILE, PDF_FILE, &date)
