@@ -19,6 +19,7 @@ pub mod follow_up;
 pub mod output;
 pub mod pipeline;
 pub mod plot;
+pub mod protocol;
 pub mod report;
 pub mod starter;
 pub mod study;

@@ -61,6 +61,23 @@ enum Command {
         #[arg(long, value_name = "P", default_value_t = plateau::analysis::power::DEFAULT_TARGET)]
         target: f64,
     },
+    /// Before the study: write the protocol folder for review and approval (protocol.pdf, its
+    /// Typst source, the run sheet as CSV) and protocol.lock.json, the lock of the planning
+    /// content that the report later compares the study with.
+    #[command(after_help = EXIT_CODES)]
+    Protocol {
+        /// The study file (results are not needed).
+        study: PathBuf,
+        /// Protocol folder [default: <study stem>-protocol beside the study file].
+        #[arg(short, long, value_name = "DIR")]
+        output: Option<PathBuf>,
+        /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
+        #[arg(long, value_name = "PATH")]
+        typst: Option<PathBuf>,
+        /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
+        #[arg(long, value_name = "SECONDS")]
+        typst_timeout: Option<u64>,
+    },
     /// After the study: write a study file with the fold-over runs that separate its
     /// unresolved alias chains (both blocks in one file, analysed together).
     #[command(name = "follow-up", after_help = EXIT_CODES)]
@@ -210,6 +227,10 @@ enum Command {
         /// Replace an existing PDF.
         #[arg(long)]
         force: bool,
+        /// Why the study was changed: printed with the author (the new version's analyst) and
+        /// recorded in the change summary, for the re-approval.
+        #[arg(long, value_name = "TEXT")]
+        reason: Option<String>,
         /// The typst binary (with --pdf) [default: $PLATEAU_TYPST, then `typst` on the PATH].
         #[arg(long, value_name = "PATH")]
         typst: Option<PathBuf>,
@@ -352,6 +373,51 @@ fn run(command: Command) -> Result<(), Failure> {
             } else {
                 Err(Failure::Silent(1))
             }
+        }
+        Command::Protocol {
+            study,
+            output,
+            typst: typst_path,
+            typst_timeout,
+        } => {
+            let mut s = plateau::study::load(&study)?;
+            // The lock the study names is checked when it exists (the first run writes it).
+            if plateau::protocol::lock_path(&s).is_some_and(|p| p.exists()) {
+                s.lock = plateau::protocol::read_lock(&s)?;
+            }
+            let design = plateau::design::plan(&s)?;
+            let dir = output.unwrap_or_else(|| report::protocol::default_dir(&study));
+            let typst = find_typst(typst_path.as_deref(), typst_timeout)?;
+            let lock = report::protocol::write(&s, &design, &typst, &dir).map_err(|e| match e {
+                report::ReportError::Typst(e) => Failure::Typesetter(e.to_string()),
+                other => Failure::Other(other.to_string()),
+            })?;
+            println!(
+                "ok  protocol written to {} (planning content SHA-256 {})",
+                dir.display(),
+                lock.planning_sha256
+            );
+            if let Some(old) = s
+                .lock
+                .as_ref()
+                .filter(|l| l.planning_sha256 != lock.planning_sha256)
+            {
+                println!(
+                    "note: the plan differs from the locked protocol {} in {} field(s): this is a revised protocol, printed without the old number and approval date",
+                    old.file,
+                    plateau::protocol::deviations::compare(&old.planning, &s.planning).len()
+                );
+            }
+            if s.protocol.is_none() {
+                let base = study.parent().unwrap_or(std::path::Path::new(""));
+                let lock_file = dir.join(plateau::protocol::LOCK_FILE);
+                let shown = lock_file.strip_prefix(base).unwrap_or(&lock_file);
+                println!(
+                    "hint: once the protocol is approved, name its lock in the study file:\n  protocol: {{ lock: {}, number: ..., approved: YYYY-MM-DD }}",
+                    shown.display()
+                );
+            }
+            Ok(())
         }
         Command::Design {
             study,
@@ -658,7 +724,12 @@ fn run(command: Command) -> Result<(), Failure> {
             let mut entries: Vec<StatusEntry> = Vec::new();
             for file in &files {
                 let dir = report::default_dir(file);
-                let entry = match plateau::study::load(file) {
+                // The protocol lock is checked as `report` would check it.
+                let loaded = plateau::study::load(file).and_then(|mut s| {
+                    s.lock = plateau::protocol::read_lock(&s)?;
+                    Ok(s)
+                });
+                let entry = match loaded {
                     Err(d) => StatusEntry::new(
                         file,
                         &dir,
@@ -756,9 +827,15 @@ fn run(command: Command) -> Result<(), Failure> {
             pdf,
             output,
             force,
+            reason,
             typst: typst_path,
             typst_timeout,
         } => {
+            if reason.as_deref().is_some_and(|r| r.trim().is_empty()) {
+                return Err(Failure::Usage(
+                    "--reason needs a text: why the study was changed".into(),
+                ));
+            }
             let new_path = match (&new, &rev) {
                 (Some(n), _) => n.clone(),
                 (None, Some(_)) => old.clone(),
@@ -796,9 +873,12 @@ fn run(command: Command) -> Result<(), Failure> {
             } else {
                 new_path.display().to_string()
             };
-            let d = plateau::diff::compare(&old_evaluated, &new_evaluated)
+            let mut d = plateau::diff::compare(&old_evaluated, &new_evaluated)
                 .with_labels(old_label, new_label)
                 .with_files(old_file, new_path.display().to_string());
+            if let Some(text) = &reason {
+                d = d.with_reason(text.trim(), new_evaluated.study.info.analyst.clone());
+            }
             if let Some(t) = typesetter {
                 let out = output
                     .as_deref()
@@ -808,6 +888,12 @@ fn run(command: Command) -> Result<(), Failure> {
                     other => Failure::Other(other.to_string()),
                 })?;
                 println!("ok  change summary written to {}", out.display());
+                if let Some(r) = &d.reason {
+                    println!(
+                        "reason for the change: {}\nchanged by: {}",
+                        r.text, r.author
+                    );
+                }
             } else if json {
                 let text =
                     serde_json::to_string_pretty(&d).map_err(|e| Failure::Other(e.to_string()))?;
@@ -1119,6 +1205,35 @@ fn check_one(study: &std::path::Path) -> CheckOutcome {
         plateau::analysis::power::analyse(&s, &design, plateau::analysis::power::DEFAULT_TARGET)
     {
         out.warnings = plateau::report::power::warnings(&p);
+    }
+    if let Some(lock) = &s.lock {
+        let deviations = plateau::protocol::deviations::compare(&lock.planning, &s.planning);
+        // A justification that names no changed field is likely a typo in its field.
+        for j in s.protocol.iter().flat_map(|p| &p.deviations) {
+            let plan_field = !j.field.trim().starts_with("results");
+            let used = deviations
+                .iter()
+                .any(|d| plateau::protocol::deviations::covers(&j.field, &d.field));
+            if plan_field && !used {
+                out.warnings.push(format!(
+                    "protocol.deviations: `{}` names no field that changed since the lock; the justification is not shown\nhint: use the field as `check` and the report name it, e.g. factors[temp].delta",
+                    j.field
+                ));
+            }
+        }
+        out.lines.push(format!(
+            "protocol lock {}: its content matches its SHA-256; {}",
+            lock.file,
+            match deviations.len() {
+                0 => "the plan is unchanged since the lock".to_string(),
+                1 => "1 field of the plan changed since (a deviation in the report)".to_string(),
+                n => format!("{n} fields of the plan changed since (deviations in the report)"),
+            }
+        ));
+        for d in &deviations {
+            out.lines
+                .push(format!("    {}: {} → {}", d.field, d.protocol, d.study));
+        }
     }
     out.lines.push(match results {
         Some(evaluated) => format!(

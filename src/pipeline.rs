@@ -4,6 +4,7 @@ use std::path::Path;
 
 use crate::analysis::{self, Analysis};
 use crate::design::{self, Design};
+use crate::protocol::deviations::{self, OrderChange, ProtocolRecord};
 use crate::study::results::{self, Measurements};
 use crate::study::{self, Diagnostics, Study};
 
@@ -12,30 +13,60 @@ use crate::study::{self, Diagnostics, Study};
 pub struct Evaluated {
     /// The checked study.
     pub study: Study,
-    /// Its planned design.
+    /// Its design, with each run at the position it was performed at (the planned position
+    /// unless the results give another).
     pub design: Design,
     /// Its measurements.
     pub data: Measurements,
     /// The analysis.
     pub analysis: Analysis,
+    /// Runs performed at another position than planned.
+    pub order_changes: Vec<OrderChange>,
+    /// The comparison with the approved protocol, when the study names its lock.
+    pub protocol: Option<ProtocolRecord>,
 }
 
-/// Checks a study file up to its plan (no results needed).
+/// Checks a study file up to its plan (no results needed), including its protocol lock.
 pub fn plan(path: &Path) -> Result<(Study, Design), Diagnostics> {
-    let study = study::load(path)?;
+    let mut study = study::load(path)?;
+    study.lock = crate::protocol::read_lock(&study)?;
     let design = design::plan(&study)?;
     Ok((study, design))
 }
 
 /// Runs the whole analysis of a study file.
 pub fn evaluate(path: &Path) -> Result<Evaluated, Diagnostics> {
-    let (study, design) = plan(path)?;
-    let data = results::read(&study, &design)?;
+    let (study, planned) = plan(path)?;
+    let data = results::read(&study, &planned)?;
+    let (design, order_changes) = executed(&planned, &data);
     let analysis = analysis::analyse(&study, &design, &data)?;
+    let protocol = deviations::record(&study, &order_changes);
     Ok(Evaluated {
         study,
         design,
         data,
         analysis,
+        order_changes,
+        protocol,
     })
+}
+
+/// The design as executed: each run at the position the results give it (so that the drift
+/// check and every run-order figure use the real sequence), and the runs that moved.
+pub fn executed(planned: &Design, data: &Measurements) -> (Design, Vec<OrderChange>) {
+    let mut design = planned.clone();
+    let mut changes = Vec::new();
+    for run in &mut design.runs {
+        if let Some(order) = data.executed_order.get(&run.id) {
+            changes.push(OrderChange {
+                run: run.id.0.clone(),
+                planned: run.order,
+                executed: *order,
+                time: data.times.get(&run.id).cloned(),
+            });
+            run.order = *order;
+        }
+    }
+    changes.sort_by_key(|c| c.planned);
+    (design, changes)
 }

@@ -219,6 +219,7 @@ pub fn analyse_response(
     let mut notes: Vec<Note> = study
         .excluded
         .iter()
+        .filter(|e| e.applies_to(r))
         .map(|e| Note::ExcludedRun {
             run: e.run.0.clone(),
             reason: e.reason.clone(),
@@ -226,7 +227,13 @@ pub fn analyse_response(
         .collect();
 
     // 1. Run means and the runs used.
-    let excluded = |id: &crate::study::RunId| study.excluded.iter().any(|e| &e.run == id);
+    // An exclusion naming another response leaves this response's value in use.
+    let excluded = |id: &crate::study::RunId| {
+        study
+            .excluded
+            .iter()
+            .any(|e| &e.run == id && e.applies_to(r))
+    };
     let raw: Vec<f64> = design
         .runs
         .iter()

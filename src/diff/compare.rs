@@ -33,6 +33,7 @@ pub fn compare(old: &Evaluated, new: &Evaluated) -> StudyDiff {
         new: version(new),
         inputs: inputs(old, new),
         outputs: outputs(old, new),
+        reason: None,
     }
 }
 
@@ -116,6 +117,7 @@ fn metadata(s: &Study) -> Fields {
         field("report footer", json(&r.footer)),
         field("report logo", json(&r.logo)),
         field("notes", json(&s.notes)),
+        field("protocol", json(&s.protocol)),
     ]
 }
 
@@ -303,7 +305,14 @@ fn inputs(old: &Evaluated, new: &Evaluated) -> Inputs {
     let excluded = |s: &Study| -> Fields {
         s.excluded
             .iter()
-            .map(|e| (e.run.0.clone(), json(&e.reason)))
+            .map(|e| {
+                // A run excluded for one response only is its own entry (`3 (assay)`).
+                let key = match e.response.and_then(|r| s.responses.get(r)) {
+                    Some(r) => format!("{} ({})", e.run.0, r.id),
+                    None => e.run.0.clone(),
+                };
+                (key, json(&e.reason))
+            })
             .collect()
     };
     for c in changed_fields("", &excluded(os), &excluded(ns)) {

@@ -348,7 +348,7 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
     let study_path = write_copy(&folder.0, &repo_path, &bytes)?;
     let text = String::from_utf8_lossy(&bytes).to_string();
 
-    // The files the study names (results, logo) are copied from the same commit. The study is
+    // The files the study names (results, logo, protocol lock) are copied from the same commit. The study is
     // only parsed here, not checked: the check needs those files in place (a logo named by
     // the study was once missing from the copy, so the revision failed to load).
     let mut data_path = None;
@@ -358,7 +358,9 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
     ) {
         let data = parsed.results.as_ref().and_then(|r| r.file.clone());
         let logo = parsed.report.as_ref().and_then(|r| r.logo.clone());
-        for (file, is_data) in [(data, true), (logo, false)] {
+        // The protocol lock as committed at that revision, so it is checked as it was.
+        let lock = parsed.protocol.as_ref().map(|p| p.lock.clone());
+        for (file, is_data) in [(data, true), (logo, false), (lock, false)] {
             let Some(file) = file else { continue };
             if Path::new(&file).is_absolute() {
                 if is_data {

@@ -39,6 +39,18 @@ pub struct StudyDiff {
     pub inputs: Inputs,
     /// What changed in what plateau computed from it.
     pub outputs: Outputs,
+    /// Why the study was changed (`diff --reason`), for the re-approval.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub reason: Option<Reason>,
+}
+
+/// The reason for a change, as the re-approval records it.
+#[derive(Debug, Clone, Serialize)]
+pub struct Reason {
+    /// The reason as given.
+    pub text: String,
+    /// Who made the change: the analyst of the new version.
+    pub author: String,
 }
 
 /// Identification of one compared version.
@@ -241,6 +253,15 @@ impl StudyDiff {
     pub fn with_labels(mut self, old: impl Into<String>, new: impl Into<String>) -> Self {
         self.old.label = old.into();
         self.new.label = new.into();
+        self
+    }
+
+    /// The same diff with the reason for the change and its author.
+    pub fn with_reason(mut self, text: impl Into<String>, author: impl Into<String>) -> Self {
+        self.reason = Some(Reason {
+            text: text.into(),
+            author: author.into(),
+        });
         self
     }
 

@@ -27,6 +27,7 @@ struct Context {
     empty: bool,
     same_files: bool,
     rows: Rows,
+    reason: Option<super::Reason>,
 }
 
 fn version(name: &'static str, v: &super::Version) -> VersionContext {
@@ -68,6 +69,7 @@ pub fn write_pdf(
         empty: diff.is_empty(),
         same_files: diff.old.sha256 == diff.new.sha256,
         rows: rows(diff),
+        reason: diff.reason.clone(),
     };
     let env = render::environment(None);
     let source = render::render(

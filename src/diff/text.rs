@@ -242,6 +242,12 @@ pub fn text(diff: &StudyDiff) -> String {
     let mut out = format!("study {}: {}\n", diff.new.id, diff.new.title);
     version_lines(&mut out, "old", &diff.old);
     version_lines(&mut out, "new", &diff.new);
+    if let Some(r) = &diff.reason {
+        out.push_str(&format!(
+            "reason for the change: {}\nchanged by: {}\n",
+            r.text, r.author
+        ));
+    }
     if diff.is_empty() {
         out.push_str(if diff.old.sha256 == diff.new.sha256 {
             "\nno changes\n"

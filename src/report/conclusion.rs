@@ -183,6 +183,35 @@ pub struct ResponseBlock {
     pub sentences: Vec<String>,
 }
 
+/// Whether the criteria were fixed before the data: said only when the study names a protocol
+/// lock that matches its own hash (checked when the study was planned), and then either that
+/// the criteria are the locked ones or that they were changed since.
+fn protocol_sentence(study: &Study) -> Option<String> {
+    let lock = study.lock.as_ref()?;
+    let spec = study.protocol.as_ref()?;
+    let name = match &spec.number {
+        Some(n) => format!("protocol {n}"),
+        None => "the protocol".to_string(),
+    };
+    let approved = spec
+        .approved
+        .as_ref()
+        .map(|d| format!(" (approved on {d})"))
+        .unwrap_or_default();
+    let changed = crate::protocol::deviations::compare(&lock.planning, &study.planning)
+        .iter()
+        .any(|d| d.field == "acceptance" || d.field.starts_with("acceptance["));
+    Some(if changed {
+        format!(
+            "The acceptance criteria were changed after {name}{approved} was locked; the changes are listed with the deviations from the protocol."
+        )
+    } else {
+        format!(
+            "The acceptance criteria were fixed before the data, in {name}{approved}: they are those of its locked plan."
+        )
+    })
+}
+
 /// The sentences of the conclusion in reading order (for the terminal and for `diff`).
 pub fn sentences(study: &Study, analysis: &Analysis) -> Vec<String> {
     let c = build(study, analysis);
@@ -236,6 +265,9 @@ pub fn build(study: &Study, analysis: &Analysis) -> Conclusion {
         },
         ranges.join("; ")
     ));
+    if let Some(sentence) = protocol_sentence(study) {
+        scope.push(sentence);
+    }
     let mut proposals = Vec::new();
     let mut informational = Vec::new();
     let responses = analysis

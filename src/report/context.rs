@@ -69,6 +69,60 @@ pub struct Context {
     pub approval: Vec<Signatory>,
     /// True when any response has a figure.
     pub has_figures: bool,
+    /// The comparison with the approved protocol, or with the planned run order when the
+    /// study names no protocol but runs were performed out of order (`None`: neither).
+    pub deviations: Option<DeviationsText>,
+    /// The report's revision: its document version and the SHA-256 of the report it replaces.
+    pub revision: Option<RevisionText>,
+}
+
+/// The deviations section.
+#[derive(Debug, Serialize)]
+pub struct DeviationsText {
+    /// True when the study names a protocol lock (else only the run order is compared).
+    pub locked: bool,
+    /// Protocol number, if given.
+    pub number: Option<String>,
+    /// Approval date, if given.
+    pub approved: Option<String>,
+    /// The lock file as named in the study.
+    pub lock: String,
+    /// SHA-256 of the locked planning content.
+    pub sha256: String,
+    /// One row per changed field.
+    pub rows: Vec<crate::protocol::deviations::Deviation>,
+}
+
+/// The report's revision.
+#[derive(Debug, Clone, Serialize)]
+pub struct RevisionText {
+    /// Document version (`report: version:`), if given.
+    pub version: Option<String>,
+    /// SHA-256 of the report.pdf this report replaces, when the folder held one.
+    pub previous_sha256: Option<String>,
+}
+
+/// The deviations section of an evaluated study.
+pub fn deviations_text(evaluated: &Evaluated) -> Option<DeviationsText> {
+    match &evaluated.protocol {
+        Some(p) => Some(DeviationsText {
+            locked: true,
+            number: p.number.clone(),
+            approved: p.approved.clone(),
+            lock: p.lock.clone(),
+            sha256: p.lock_sha256.clone(),
+            rows: p.deviations.clone(),
+        }),
+        None if !evaluated.order_changes.is_empty() => Some(DeviationsText {
+            locked: false,
+            number: None,
+            approved: None,
+            lock: String::new(),
+            sha256: String::new(),
+            rows: crate::protocol::deviations::order_deviations(&evaluated.order_changes),
+        }),
+        None => None,
+    }
 }
 
 /// One nominal condition of the method.
@@ -458,7 +512,10 @@ pub fn build(evaluated: &Evaluated, typst_version: Option<&str>, figures: &Figur
             .iter()
             .map(|e| ExcludedText {
                 run: e.run.0.clone(),
-                reason: e.reason.clone(),
+                reason: match e.response.and_then(|r| study.responses.get(r)) {
+                    Some(resp) => format!("{} (for {} only)", e.reason, resp.name),
+                    None => e.reason.clone(),
+                },
             })
             .collect(),
         approval: vec![
@@ -476,6 +533,8 @@ pub fn build(evaluated: &Evaluated, typst_version: Option<&str>, figures: &Figur
             },
         ],
         has_figures,
+        deviations: deviations_text(evaluated),
+        revision: None,
         study: StudyText {
             id: study.info.id.clone(),
             title: study.info.title.clone(),
@@ -531,6 +590,7 @@ fn run_table(evaluated: &Evaluated) -> RunTable {
         design,
         data,
         analysis,
+        ..
     } = evaluated;
     let used: Vec<bool> = (0..analysis.responses.len())
         .map(|r| has_used_values(evaluated, r))
@@ -552,11 +612,7 @@ fn run_table(evaluated: &Evaluated) -> RunTable {
         .iter()
         .map(|a| a.values.iter().map(|v| (v.run.as_str(), v)).collect())
         .collect();
-    let reasons: std::collections::HashMap<&str, &str> = study
-        .excluded
-        .iter()
-        .map(|e| (e.run.0.as_str(), e.reason.as_str()))
-        .collect();
+    let reasons = exclusion_reasons(study);
     let rows = design
         .runs_in_order()
         .into_iter()
@@ -585,7 +641,7 @@ fn run_table(evaluated: &Evaluated) -> RunTable {
                 if used.get(r).copied().unwrap_or(false) {
                     let value = lookups.get(r).and_then(|m| m.get(run.id.0.as_str()));
                     cells.push(match value {
-                        Some(v) if v.excluded || excluded.is_some() => "not used".to_string(),
+                        Some(v) if v.excluded => "not used".to_string(),
                         Some(v) => numbers.derived(v.value),
                         None => String::new(),
                     });
@@ -605,6 +661,25 @@ fn run_table(evaluated: &Evaluated) -> RunTable {
         rows,
         corrected: used.iter().any(|u| *u),
     }
+}
+
+/// Why each excluded run was left out, by run id: the reason, prefixed with the responses it
+/// concerns when the run was excluded for some responses only (`for assay only: ...`).
+pub fn exclusion_reasons(study: &crate::study::Study) -> std::collections::HashMap<&str, String> {
+    let mut out: std::collections::HashMap<&str, String> = std::collections::HashMap::new();
+    for e in &study.excluded {
+        let text = match e.response.and_then(|r| study.responses.get(r)) {
+            Some(resp) => format!("for {} only: {}", resp.id, e.reason),
+            None => e.reason.clone(),
+        };
+        out.entry(e.run.0.as_str())
+            .and_modify(|t| {
+                t.push_str("; ");
+                t.push_str(&text);
+            })
+            .or_insert(text);
+    }
+    out
 }
 
 fn paragraphs(text: &str) -> Vec<String> {
@@ -636,9 +711,13 @@ pub fn superscript(text: &str) -> String {
 }
 
 fn design_text(evaluated: &Evaluated) -> DesignText {
-    let design = &evaluated.design;
+    design_words(&evaluated.study, &evaluated.design)
+}
+
+/// The design in words, from the plan alone (the report and the protocol share it).
+pub fn design_words(study: &crate::study::Study, design: &crate::design::Design) -> DesignText {
     let st = &design.structure;
-    let k = evaluated.study.factors.len();
+    let k = study.factors.len();
     let kind = match design.kind {
         crate::study::DesignKind::FullFactorial => {
             format!("full factorial 2{}", superscript(&k.to_string()))
@@ -753,7 +832,7 @@ fn design_text(evaluated: &Evaluated) -> DesignText {
             .skip(design.k().saturating_sub(design.dummies))
             .cloned()
             .collect(),
-        partial_aliases: partial_alias_rows(evaluated),
+        partial_aliases: partial_alias_rows(study, design),
         nominal_runs: nominal_runs_text(design),
         plackett_burman: design.kind == crate::study::DesignKind::PlackettBurman,
         youden: design.kind == crate::study::DesignKind::Youden || st.youden,
@@ -761,10 +840,12 @@ fn design_text(evaluated: &Evaluated) -> DesignText {
 }
 
 /// Partial aliases grouped by main effect, in factor order, with the distinct |r| values.
-fn partial_alias_rows(evaluated: &Evaluated) -> Vec<PartialAliasRow> {
-    let st = &evaluated.design.structure;
-    evaluated
-        .study
+fn partial_alias_rows(
+    study: &crate::study::Study,
+    design: &crate::design::Design,
+) -> Vec<PartialAliasRow> {
+    let st = &design.structure;
+    study
         .factors
         .iter()
         .filter_map(|f| {
@@ -816,7 +897,7 @@ fn nominal_runs_text(design: &crate::design::Design) -> Option<String> {
 }
 
 /// `a`, `a and b`, `a, b and c`.
-fn and_list(items: &[String]) -> String {
+pub fn and_list(items: &[String]) -> String {
     match items {
         [] => String::new(),
         [one] => one.clone(),
@@ -825,7 +906,7 @@ fn and_list(items: &[String]) -> String {
 }
 
 /// A factor's nominal setting with its unit.
-fn nominal_text(f: &Factor) -> String {
+pub fn nominal_text(f: &Factor) -> String {
     match (&f.levels, &f.unit) {
         (Levels::Numeric { .. }, Some(u)) => format!("{} {u}", setting_of(f, 0)),
         _ => setting_of(f, 0),

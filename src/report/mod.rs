@@ -13,6 +13,7 @@ pub mod figures;
 pub mod format;
 pub mod judging;
 pub mod power;
+pub mod protocol;
 pub mod render;
 pub mod runsheet;
 pub mod tables;
@@ -96,9 +97,19 @@ pub fn render_files(
     evaluated: &Evaluated,
     options: &Options,
 ) -> Result<Vec<(String, Vec<u8>)>, ReportError> {
+    render_revision(evaluated, options, None)
+}
+
+/// [`render_files`] for a given revision (document version and the report it replaces).
+pub fn render_revision(
+    evaluated: &Evaluated,
+    options: &Options,
+    revision: Option<&context::RevisionText>,
+) -> Result<Vec<(String, Vec<u8>)>, ReportError> {
     let typst_version = options.typst.as_ref().map(|t| t.version.as_str());
     let figures = figures::build(evaluated)?;
-    let ctx = context::build(evaluated, typst_version, &figures);
+    let mut ctx = context::build(evaluated, typst_version, &figures);
+    ctx.revision = revision.cloned();
     let user = options.templates.as_deref();
     let env = render::environment(user);
     let value = minijinja::Value::from(minijinja::value::Serde(&ctx));
@@ -111,7 +122,17 @@ pub fn render_files(
     ];
     // Each figure's SVG and, beside it, the CSV of its plotted values.
     files.extend(figures.files());
-    let json = serde_json::to_string_pretty(&evaluated.analysis)
+    let mut document = analysis_document(evaluated);
+    if let (Some(r), serde_json::Value::Object(map)) = (revision, &mut document) {
+        map.insert(
+            "revision".into(),
+            serde_json::json!({
+                "version": r.version,
+                "previous_report_sha256": r.previous_sha256,
+            }),
+        );
+    }
+    let json = serde_json::to_string_pretty(&document)
         .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
     files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));
     files.extend(tables::csv_files(evaluated));
@@ -153,6 +174,61 @@ pub fn render_files(
     Ok(files)
 }
 
+/// The analysis as analysis.json carries it: the analysis, with `protocol` (lock SHA-256 and
+/// deviations) when the study names a protocol lock, and `order_changes` when runs were
+/// performed out of their planned order.
+pub fn analysis_document(evaluated: &Evaluated) -> serde_json::Value {
+    let mut doc = serde_json::to_value(&evaluated.analysis).unwrap_or_default();
+    if let serde_json::Value::Object(map) = &mut doc {
+        if let Some(p) = &evaluated.protocol {
+            map.insert(
+                "protocol".into(),
+                serde_json::to_value(p).unwrap_or_default(),
+            );
+        }
+        if !evaluated.order_changes.is_empty() {
+            map.insert(
+                "order_changes".into(),
+                serde_json::to_value(&evaluated.order_changes).unwrap_or_default(),
+            );
+        }
+    }
+    doc
+}
+
+/// The report's revision: the document version (`report: version:`) and, when `dest` already
+/// holds a report.pdf, its SHA-256 (the revision this report replaces). A rebuild from the same
+/// inputs is the same revision: it keeps what the earlier build recorded, so reruns stay
+/// byte-identical.
+pub fn revision(evaluated: &Evaluated, dest: &Path) -> Option<context::RevisionText> {
+    let version = evaluated.study.report.version.clone();
+    let previous = previous_report(evaluated, dest);
+    (version.is_some() || previous.is_some()).then_some(context::RevisionText {
+        version,
+        previous_sha256: previous,
+    })
+}
+
+/// Largest earlier report.pdf hashed (a chapter is far smaller).
+const MAX_PREVIOUS_PDF: u64 = 512 * 1024 * 1024;
+
+fn previous_report(evaluated: &Evaluated, dest: &Path) -> Option<String> {
+    let pdf = dest.join("report.pdf");
+    let shown = pdf.display().to_string();
+    let bytes = crate::study::load::read_limited(&pdf, MAX_PREVIOUS_PDF, &shown).ok()?;
+    let now = crate::batch::inputs(&evaluated.study, None, None);
+    let same_inputs = crate::batch::recorded(dest)
+        .is_some_and(|r| r.study.1 == now.study.1 && r.data == now.data);
+    if same_inputs {
+        let text = std::fs::read_to_string(dest.join("analysis.json")).ok()?;
+        let doc: serde_json::Value = serde_json::from_str(&text).ok()?;
+        return doc["revision"]["previous_report_sha256"]
+            .as_str()
+            .map(str::to_string);
+    }
+    Some(crate::study::load::sha256_hex(&bytes))
+}
+
 /// Writes the report folder and returns its path.
 pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, ReportError> {
     let dest = options
@@ -179,7 +255,8 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
     }
     // Refused before the figures and templates are rendered, not after.
     crate::output::check_folder(&dest, "report folder")?;
-    let files = render_files(evaluated, options)?;
+    let revision = revision(evaluated, &dest);
+    let files = render_revision(evaluated, options, revision.as_ref())?;
     crate::output::write_folder(&dest, "report folder", &files, |staging| {
         if let Some(typst) = &options.typst {
             typeset(

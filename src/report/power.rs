@@ -4,7 +4,8 @@ use crate::analysis::power::{PowerAnalysis, PowerGap, ResponsePower};
 
 use super::format::fixed;
 
-fn number(v: f64) -> String {
+/// A planning number with four significant figures.
+pub fn number(v: f64) -> String {
     // Four significant figures: the precision a planning estimate deserves.
     if v == 0.0 || !v.is_finite() {
         return fixed(v, 2);
@@ -13,7 +14,8 @@ fn number(v: f64) -> String {
     fixed(v, d)
 }
 
-fn percent(p: f64) -> String {
+/// A power as a percentage (`> 99.9 %` near 1).
+pub fn percent(p: f64) -> String {
     if p > 0.999 {
         "> 99.9 %".into()
     } else {

@@ -27,6 +27,10 @@ pub const BUILT_IN: &[(&str, &str)] = &[
     ),
     ("diff.typ.j2", include_str!("../../templates/diff.typ.j2")),
     (
+        "protocol.typ.j2",
+        include_str!("../../templates/protocol.typ.j2"),
+    ),
+    (
         "verify.typ.j2",
         include_str!("../../templates/verify.typ.j2"),
     ),

@@ -13,6 +13,7 @@ pub fn csv_files(evaluated: &Evaluated) -> Vec<(String, Vec<u8>)> {
         design,
         data,
         analysis,
+        ..
     } = evaluated;
     let mut files = Vec::new();
     let header: Vec<String> = ["id", "name", "unit", "nominal", "low", "high"]
@@ -68,11 +69,7 @@ pub fn csv_files(evaluated: &Evaluated) -> Vec<(String, Vec<u8>)> {
         .iter()
         .map(|a| a.values.iter().map(|v| (v.run.as_str(), v)).collect())
         .collect();
-    let reasons: std::collections::HashMap<&str, &str> = study
-        .excluded
-        .iter()
-        .map(|e| (e.run.0.as_str(), e.reason.as_str()))
-        .collect();
+    let reasons = super::context::exclusion_reasons(study);
     let rows: Vec<Vec<String>> =
         design
             .runs_in_order()
@@ -108,9 +105,9 @@ pub fn csv_files(evaluated: &Evaluated) -> Vec<(String, Vec<u8>)> {
                         );
                     }
                 }
-                let reason = reasons.get(run.id.0.as_str()).copied();
+                let reason = reasons.get(run.id.0.as_str());
                 row.push(reason.is_some().to_string());
-                row.push(reason.unwrap_or_default().to_string());
+                row.push(reason.cloned().unwrap_or_default());
                 row
             })
             .collect();

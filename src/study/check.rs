@@ -23,7 +23,7 @@ pub const MAX_FULL_FACTORIAL_FACTORS: usize = 16;
 /// Most runs an explicit design may list.
 pub const MAX_EXPLICIT_RUNS: usize = 4096;
 /// Column names the results CSV reserves.
-const RESERVED_IDS: [&str; 2] = ["run", "order"];
+const RESERVED_IDS: [&str; 3] = ["run", "order", "time"];
 
 struct Checker<'a> {
     file: &'a str,
@@ -59,7 +59,17 @@ pub fn study(
     let design_ok = c.problems.0.len() == before;
     let responses = responses(&mut c, &file, &design, design_ok);
     let (limits, significance, suitability) = acceptance(&mut c, &file, &responses);
-    let excluded = exclusions(&mut c, &file.excluded);
+    let excluded = exclusions(&mut c, &file.excluded, &file.responses);
+    if let Some(p) = &file.protocol
+        && let Some(date) = &p.approved
+        && !valid_date(date)
+    {
+        c.report(
+            &FieldPath::of(&["protocol", "approved"]),
+            format!("`{date}` is not a calendar date"),
+            Some("expected the approval date as YYYY-MM-DD".into()),
+        );
+    }
     if let Some(logo) = file.report.as_ref().and_then(|r| r.logo.as_ref()) {
         let full = path.parent().unwrap_or_else(|| Path::new(".")).join(logo);
         if let Err(why) = check_logo(&full) {
@@ -86,9 +96,9 @@ pub fn study(
         check_results_spec(&mut c, results);
     }
     check_id_clashes(&mut c, &file);
-    if let Ok(tree) = serde_json::to_value(&file) {
-        check_printable(&mut c, &tree, &FieldPath::root());
-    }
+    let tree = serde_json::to_value(&file).unwrap_or_default();
+    check_printable(&mut c, &tree, &FieldPath::root());
+    let planning = crate::protocol::planning_content(&tree);
     if !c.problems.is_empty() {
         return Err(c.problems.sorted());
     }
@@ -149,13 +159,16 @@ pub fn study(
         figure_interactions,
         results: file.results,
         notes: file.notes,
+        protocol: file.protocol,
+        planning,
+        lock: None,
     })
 }
 
-fn check_date(c: &mut Checker<'_>, date: &str) {
-    let field = FieldPath::of(&["study", "date"]);
+/// True for a calendar date written `YYYY-MM-DD`.
+fn valid_date(date: &str) -> bool {
     let parts: Vec<u32> = date.split('-').filter_map(|p| p.parse().ok()).collect();
-    let valid = match parts.as_slice() {
+    match parts.as_slice() {
         [y, m, d] => {
             (1900..=9999).contains(y)
                 && (1..=12).contains(m)
@@ -163,8 +176,12 @@ fn check_date(c: &mut Checker<'_>, date: &str) {
                 && *d <= days_in_month(*y, *m)
         }
         _ => false,
-    };
-    if !valid {
+    }
+}
+
+fn check_date(c: &mut Checker<'_>, date: &str) {
+    let field = FieldPath::of(&["study", "date"]);
+    if !valid_date(date) {
         c.report(
             &field,
             format!("`{date}` is not a calendar date"),
@@ -1257,7 +1274,11 @@ pub fn parse_term(text: &str, factor_ids: &[&str]) -> Result<u64, String> {
     Ok(mask)
 }
 
-fn exclusions(c: &mut Checker<'_>, specs: &[model::ExclusionSpec]) -> Vec<super::Exclusion> {
+fn exclusions(
+    c: &mut Checker<'_>,
+    specs: &[model::ExclusionSpec],
+    responses: &[model::ResponseSpec],
+) -> Vec<super::Exclusion> {
     let mut seen = BTreeSet::new();
     let mut out = Vec::new();
     for (i, e) in specs.iter().enumerate() {
@@ -1269,11 +1290,33 @@ fn exclusions(c: &mut Checker<'_>, specs: &[model::ExclusionSpec]) -> Vec<super:
                 continue;
             }
         };
-        if !seen.insert(run.clone()) {
+        let response = match &e.response {
+            None => None,
+            Some(id) => match responses.iter().position(|r| &r.id == id) {
+                Some(r) => Some(r),
+                None => {
+                    let ids: Vec<&str> = responses.iter().map(|r| r.id.as_str()).collect();
+                    c.report(
+                        &at.key("response"),
+                        format!("unknown response `{id}`"),
+                        Some(format!("expected one of {}", ids.join(", "))),
+                    );
+                    continue;
+                }
+            },
+        };
+        // A run is excluded once for every response, or once per response.
+        let twice = !seen.insert((run.clone(), response))
+            || (response.is_none() && seen.iter().any(|(r, x)| r == &run && x.is_some()))
+            || (response.is_some() && seen.contains(&(run.clone(), None)));
+        if twice {
             c.report(
                 &at.key("run"),
                 format!("run `{run}` is excluded twice"),
-                Some("expected each excluded run once".into()),
+                Some(
+                    "expected each excluded run once (for every response, or once per response)"
+                        .into(),
+                ),
             );
             continue;
         }
@@ -1281,6 +1324,7 @@ fn exclusions(c: &mut Checker<'_>, specs: &[model::ExclusionSpec]) -> Vec<super:
             run,
             reason: e.reason.clone(),
             entry: i,
+            response,
         });
     }
     out

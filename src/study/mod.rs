@@ -92,6 +92,13 @@ pub struct Study {
     pub results: Option<model::ResultsSpec>,
     /// Analyst notes.
     pub notes: Option<String>,
+    /// The approved protocol the study follows (`protocol:`), if any.
+    pub protocol: Option<model::ProtocolSpec>,
+    /// The planning content of the study file (everything but results, exclusions, notes,
+    /// report frame and protocol), in the canonical form a protocol lock holds.
+    pub planning: serde_json::Value,
+    /// The protocol lock, read and checked against its own hash (set by `pipeline::plan`).
+    pub lock: Option<crate::protocol::Lock>,
 }
 
 /// A factor with its two levels resolved.
@@ -292,6 +299,15 @@ pub struct Exclusion {
     pub reason: String,
     /// Position in `excluded` (for messages).
     pub entry: usize,
+    /// The one response (index) the run is excluded for; `None`: every response.
+    pub response: Option<usize>,
+}
+
+impl Exclusion {
+    /// True when the exclusion removes the run from response `r`.
+    pub fn applies_to(&self, r: usize) -> bool {
+        self.response.is_none_or(|x| x == r)
+    }
 }
 
 /// A practical limit on the effects of one response.

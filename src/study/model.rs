@@ -32,6 +32,9 @@ pub struct StudyFile {
     /// Runs left out of the evaluation, each with its reason (printed in the report).
     #[serde(default)]
     pub excluded: Vec<ExclusionSpec>,
+    /// The approved protocol the study is executed against (its lock file).
+    #[serde(default)]
+    pub protocol: Option<ProtocolSpec>,
     /// How the chapter fits the laboratory's dossier.
     #[serde(default)]
     pub report: Option<ReportSpec>,
@@ -84,6 +87,38 @@ pub struct ExclusionSpec {
     pub run: serde_json::Value,
     /// Why the run is excluded.
     pub reason: String,
+    /// The one response the run is excluded for (a fault that spoils one measurement but not
+    /// the others); absent: every response.
+    #[serde(default)]
+    pub response: Option<String>,
+}
+
+/// The `protocol` section: which approved plan the study follows, and why it departs from it.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct ProtocolSpec {
+    /// The lock file written by `plateau protocol`, relative to the study file.
+    pub lock: String,
+    /// Protocol number in the laboratory's document system.
+    #[serde(default)]
+    pub number: Option<String>,
+    /// Date the protocol was approved, `YYYY-MM-DD`.
+    #[serde(default)]
+    pub approved: Option<String>,
+    /// The analyst's justification of each change from the locked plan.
+    #[serde(default)]
+    pub deviations: Vec<DeviationSpec>,
+}
+
+/// The justification of one change from the locked plan.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct DeviationSpec {
+    /// The changed field as the deviations section names it (`factors[temp].delta`), or a
+    /// part of it (`factors[temp]`) to cover all its changes.
+    pub field: String,
+    /// Why the change was made.
+    pub justification: String,
 }
 
 /// Where the study's data come from.

@@ -25,6 +25,11 @@ pub struct Measurements {
     pub values: BTreeMap<RunId, Vec<Vec<f64>>>,
     /// The data file read, if any: name as given and SHA-256.
     pub data_file: Option<DataFile>,
+    /// The position each run was performed at, where the results' `order` column gives one
+    /// (the run sheet's column, filled in as run); a run missing here ran as planned.
+    pub executed_order: BTreeMap<RunId, usize>,
+    /// When each run was performed, where the results' `time` column gives it (text as written).
+    pub times: BTreeMap<RunId, String>,
 }
 
 /// A data file and its checksum (provenance).
@@ -57,6 +62,9 @@ pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics>
     let planned: BTreeSet<&RunId> = design.runs.iter().map(|r| &r.id).collect();
     let mut problems = Diagnostics::default();
     let mut values: BTreeMap<RunId, Vec<Vec<f64>>> = BTreeMap::new();
+    let mut executed_order: BTreeMap<RunId, usize> = BTreeMap::new();
+    let mut times: BTreeMap<RunId, String> = BTreeMap::new();
+    let mut positions: BTreeMap<usize, RunId> = BTreeMap::new();
     for row in rows {
         if !planned.contains(&row.run) {
             problems.push(row.at.diagnostic(
@@ -70,6 +78,31 @@ pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics>
                 )),
             ));
             continue;
+        }
+        if let Some(order) = row.order {
+            match executed_order.get(&row.run) {
+                Some(first) if *first != order => problems.push(row.at.diagnostic(
+                    format!(
+                        "run `{}`: order `{order}` differs from the order `{first}` of its first row",
+                        row.run
+                    ),
+                    Some("expected one position per run (its determinations were made in one run)".into()),
+                )),
+                Some(_) => {}
+                None => match positions.get(&order) {
+                    Some(other) => problems.push(row.at.diagnostic(
+                        format!("runs `{other}` and `{}` both have order `{order}`", row.run),
+                        Some("expected each position of the run order once".into()),
+                    )),
+                    None => {
+                        positions.insert(order, row.run.clone());
+                        executed_order.insert(row.run.clone(), order);
+                    }
+                },
+            }
+        }
+        if let Some(time) = &row.time {
+            times.entry(row.run.clone()).or_insert_with(|| time.clone());
         }
         let entry = values
             .entry(row.run.clone())
@@ -121,7 +154,11 @@ pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics>
     };
     let missing_at = || missing_locus.clone();
     for run in &design.runs {
-        let excluded = study.excluded.iter().any(|e| e.run == run.id);
+        // A run excluded for one response only still has the values of the others.
+        let excluded = study
+            .excluded
+            .iter()
+            .any(|e| e.run == run.id && e.response.is_none());
         match values.get(&run.id) {
             None if excluded => {}
             None => problems.push(missing_at().diagnostic(
@@ -148,7 +185,32 @@ pub fn read(study: &Study, design: &Design) -> Result<Measurements, Diagnostics>
     if !problems.is_empty() {
         return Err(problems);
     }
-    Ok(Measurements { values, data_file })
+    // A run given no position keeps its planned one; two runs must not share a position.
+    for run in &design.runs {
+        if !executed_order.contains_key(&run.id)
+            && let Some(other) = positions.get(&run.order)
+            && other != &run.id
+        {
+            problems.push(missing_at().diagnostic(
+                format!(
+                    "run `{other}` was given order `{}`, the planned position of run `{}`, which has no order of its own",
+                    run.order, run.id
+                ),
+                Some(format!("expected the order run `{}` was performed at as well", run.id)),
+            ));
+        }
+    }
+    if !problems.is_empty() {
+        return Err(problems);
+    }
+    // Positions equal to the plan are not recorded as executed ones.
+    executed_order.retain(|id, order| design.runs.iter().any(|r| &r.id == id && r.order != *order));
+    Ok(Measurements {
+        values,
+        data_file,
+        executed_order,
+        times,
+    })
 }
 
 fn run_range(design: &Design) -> String {
@@ -201,6 +263,10 @@ struct Row {
     run: RunId,
     values: Vec<Vec<f64>>,
     at: Locus,
+    /// Position in the run order as executed (the `order` column), when given.
+    order: Option<usize>,
+    /// When the run was performed (the `time` column), when given.
+    time: Option<String>,
 }
 
 fn inline_rows(study: &Study, runs: &[BTreeMap<String, Value>]) -> Result<Vec<Row>, Diagnostics> {
@@ -222,8 +288,27 @@ fn inline_rows(study: &Study, runs: &[BTreeMap<String, Value>]) -> Result<Vec<Ro
                 continue;
             }
         };
+        // `order` and `time`: the position and time the run was performed at, as in the CSV.
+        let order = match entry.get("order") {
+            None => None,
+            Some(v) => match v.as_u64().filter(|n| *n >= 1) {
+                Some(n) => Some(n as usize),
+                None => {
+                    problems.push(study.diagnostic(
+                        &here.key("order"),
+                        format!("run `{run}`: order `{v}` is not a position in the run order"),
+                        Some("expected the position the run was performed at (1, 2, ...)".into()),
+                    ));
+                    None
+                }
+            },
+        };
+        let time = entry.get("time").map(|v| match v {
+            Value::String(s) => s.clone(),
+            other => other.to_string(),
+        });
         for key in entry.keys() {
-            if key != "run" && !ids.contains(&key.as_str()) {
+            if key != "run" && key != "order" && key != "time" && !ids.contains(&key.as_str()) {
                 let hint = closest(key, ids.iter().copied())
                     .map(|b| format!("did you mean `{b}`? "))
                     .unwrap_or_default();
@@ -295,6 +380,8 @@ fn inline_rows(study: &Study, runs: &[BTreeMap<String, Value>]) -> Result<Vec<Ro
                 position: locator.value(&here.key("run").0),
                 field: here.key("run").to_string(),
             },
+            order,
+            time,
         });
     }
     if problems.is_empty() {
@@ -411,6 +498,7 @@ fn csv_rows(
         }
         if h != "run"
             && h != "order"
+            && h != "time"
             && !response_ids.contains(&h.as_str())
             && !factor_ids.contains(&h.as_str())
         {
@@ -426,7 +514,7 @@ fn csv_rows(
                 Some(1),
                 h,
                 format!("unknown column `{h}`"),
-                Some(format!("{hint}expected `run`, the response ids ({}), and optionally `order` and the factor ids", response_ids.join(", "))),
+                Some(format!("{hint}expected `run`, the response ids ({}), and optionally `order`, `time` and the factor ids", response_ids.join(", "))),
             ));
         }
     }
@@ -514,21 +602,28 @@ fn csv_rows(
                 )),
             }
         }
-        if let Some(planned_run) = planned.get(&run) {
-            if let Some(col) = header.iter().position(|h| h == "order") {
-                let cell = record.get(col).unwrap_or_default();
-                if !cell.is_empty() && cell.parse::<usize>().ok() != Some(planned_run.order) {
-                    problems.push(one(
-                        line,
-                        "order",
-                        format!("run `{run}`: order `{cell}` differs from the planned run order"),
-                        Some(format!(
-                            "expected {} as planned (or leave the `order` column out)",
-                            planned_run.order
-                        )),
-                    ));
-                }
+        // The executed position: a difference from the plan is recorded (the report lists it
+        // as a deviation and the drift check uses it), not refused.
+        let mut order = None;
+        if let Some(col) = header.iter().position(|h| h == "order") {
+            let cell = record.get(col).unwrap_or_default().trim();
+            match cell.parse::<usize>() {
+                _ if cell.is_empty() => {}
+                Ok(n) if n >= 1 => order = Some(n),
+                _ => problems.push(one(
+                    line,
+                    "order",
+                    format!("run `{run}`: order `{cell}` is not a position in the run order"),
+                    Some("expected the position the run was performed at (1, 2, ...), or an empty cell for the planned one".into()),
+                )),
             }
+        }
+        let time = header
+            .iter()
+            .position(|h| h == "time")
+            .map(|col| record.get(col).unwrap_or_default().trim().to_string())
+            .filter(|t| !t.is_empty());
+        if let Some(planned_run) = planned.get(&run) {
             for (j, f) in study.factors.iter().enumerate() {
                 let Some(col) = header.iter().position(|h| h == &f.id) else {
                     continue;
@@ -560,6 +655,8 @@ fn csv_rows(
                 position: line.map(|l| (l, 1)),
                 field: "run".into(),
             },
+            order,
+            time,
         });
     }
     // The sheet is either in real units or, as a whole, the coded one (`plateau design
