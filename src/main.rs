@@ -245,6 +245,13 @@ enum Command {
     },
     /// Print the JSON Schema of the study file.
     Schema,
+    /// Print a shell completion script (bash, zsh, fish, elvish or powershell).
+    Completions {
+        /// The shell.
+        shell: clap_complete::Shell,
+    },
+    /// Print the manual page (roff), e.g. `plateau manual > plateau.1`.
+    Manual,
 }
 
 #[derive(Subcommand)]
@@ -553,6 +560,21 @@ fn run(command: Command) -> Result<(), Failure> {
                 output.display(),
                 output.display()
             );
+            Ok(())
+        }
+        Command::Completions { shell } => {
+            let mut command = <Cli as clap::CommandFactory>::command();
+            clap_complete::generate(shell, &mut command, "plateau", &mut std::io::stdout());
+            Ok(())
+        }
+        Command::Manual => {
+            let command = <Cli as clap::CommandFactory>::command();
+            let mut out = Vec::new();
+            clap_mangen::Man::new(command)
+                .render(&mut out)
+                .map_err(|e| Failure::Other(format!("failed to write the manual ({e})")))?;
+            std::io::Write::write_all(&mut std::io::stdout(), &out)
+                .map_err(|e| Failure::Other(format!("failed to write the manual ({e})")))?;
             Ok(())
         }
         Command::Analyze { study, json } => {
