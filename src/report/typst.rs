@@ -353,21 +353,11 @@ pub fn creation_timestamp(date: &str) -> i64 {
 }
 
 /// Seconds since 1970-01-01T00:00:00Z of a `YYYY-MM-DD` date at midnight UTC (the pinned PDF
-/// creation date). Days from the civil calendar by H. Hinnant's `days_from_civil` algorithm.
+/// creation date).
 pub fn unix_midnight(date: &str) -> Option<i64> {
-    let mut parts = date.split('-').map(str::parse::<i64>);
-    let (y, m, d) = (
-        parts.next()?.ok()?,
-        parts.next()?.ok()?,
-        parts.next()?.ok()?,
-    );
-    let y = if m <= 2 { y - 1 } else { y };
-    let era = y.div_euclid(400);
-    let yoe = y - era * 400;
-    let mp = (m + 9) % 12;
-    let doy = (153 * mp + 2) / 5 + d - 1;
-    let doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
-    Some((era * 146_097 + doe - 719_468) * 86_400)
+    let day: jiff::civil::Date = date.parse().ok()?;
+    let zoned = day.to_zoned(jiff::tz::TimeZone::UTC).ok()?;
+    Some(zoned.timestamp().as_second())
 }
 
 #[cfg(test)]

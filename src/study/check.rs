@@ -165,18 +165,20 @@ pub fn study(
     })
 }
 
-/// True for a calendar date written `YYYY-MM-DD`.
-fn valid_date(date: &str) -> bool {
-    let parts: Vec<u32> = date.split('-').filter_map(|p| p.parse().ok()).collect();
-    match parts.as_slice() {
-        [y, m, d] => {
-            (1900..=9999).contains(y)
-                && (1..=12).contains(m)
-                && *d >= 1
-                && *d <= days_in_month(*y, *m)
-        }
-        _ => false,
-    }
+/// True for a calendar date written `YYYY-MM-DD` (years 1900 to 9999).
+pub fn valid_date(date: &str) -> bool {
+    let shape = date.len() == 10
+        && date.char_indices().all(|(i, c)| {
+            if i == 4 || i == 7 {
+                c == '-'
+            } else {
+                c.is_ascii_digit()
+            }
+        });
+    shape
+        && date
+            .parse::<jiff::civil::Date>()
+            .is_ok_and(|d| (1900..=9999).contains(&d.year()))
 }
 
 fn check_date(c: &mut Checker<'_>, date: &str) {
@@ -187,19 +189,6 @@ fn check_date(c: &mut Checker<'_>, date: &str) {
             format!("`{date}` is not a calendar date"),
             Some("expected a date as YYYY-MM-DD, e.g. 2026-11-18".into()),
         );
-    }
-}
-
-/// Days in a month of the proleptic Gregorian calendar.
-pub fn days_in_month(year: u32, month: u32) -> u32 {
-    match month {
-        1 | 3 | 5 | 7 | 8 | 10 | 12 => 31,
-        4 | 6 | 9 | 11 => 30,
-        2 if (year.is_multiple_of(4) && !year.is_multiple_of(100)) || year.is_multiple_of(400) => {
-            29
-        }
-        2 => 28,
-        _ => 0,
     }
 }
 

@@ -181,31 +181,10 @@ pub fn closest<'a>(wrong: &str, valid: impl IntoIterator<Item = &'a str>) -> Opt
     let limit = (wrong.chars().count() / 3).max(1);
     valid
         .into_iter()
-        .map(|v| (levenshtein(wrong, v), v))
+        .map(|v| (strsim::levenshtein(wrong, v), v))
         .filter(|(d, _)| *d <= limit)
         .min_by_key(|(d, _)| *d)
         .map(|(_, v)| v)
-}
-
-fn levenshtein(a: &str, b: &str) -> usize {
-    let b: Vec<char> = b.chars().collect();
-    let mut row: Vec<usize> = (0..=b.len()).collect();
-    for (i, ca) in a.chars().enumerate() {
-        let mut previous = row.first().copied().unwrap_or(0);
-        if let Some(first) = row.first_mut() {
-            *first = i + 1;
-        }
-        for (j, cb) in b.iter().enumerate() {
-            let substitution = previous + usize::from(ca != *cb);
-            previous = row.get(j + 1).copied().unwrap_or(0);
-            let deletion = previous + 1;
-            let insertion = row.get(j).copied().unwrap_or(0) + 1;
-            if let Some(cell) = row.get_mut(j + 1) {
-                *cell = substitution.min(deletion).min(insertion);
-            }
-        }
-    }
-    row.last().copied().unwrap_or(0)
 }
 
 #[cfg(test)]

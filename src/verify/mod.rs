@@ -546,32 +546,21 @@ fn sha256_of_file(path: &Path) -> Option<String> {
 /// installation was checked, so without `--date` it carries the day it was made. Everything
 /// else (reports, PDFs) takes its date from the study file so that it is reproducible.
 pub fn today() -> String {
-    let secs = std::time::SystemTime::now()
-        .duration_since(std::time::UNIX_EPOCH)
-        .map_or(0, |d| d.as_secs() as i64);
-    civil_date(secs.div_euclid(86_400))
+    civil_date(jiff::Timestamp::now().as_second().div_euclid(86_400))
 }
 
-/// The civil date of a day count since 1970-01-01 (H. Hinnant, `civil_from_days`).
+/// The civil date (`YYYY-MM-DD`, UTC) of a day count since 1970-01-01.
 pub fn civil_date(days: i64) -> String {
-    let z = days + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z - era * 146_097;
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = doy - (153 * mp + 2) / 5 + 1;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 };
-    let y = yoe + era * 400 + i64::from(m <= 2);
-    format!("{y:04}-{m:02}-{d:02}")
+    jiff::Timestamp::from_second(days.saturating_mul(86_400))
+        .map(|t| t.to_zoned(jiff::tz::TimeZone::UTC).date().to_string())
+        .unwrap_or_else(|_| "1970-01-01".into())
 }
 
 /// Checks a `--date` value: YYYY-MM-DD with a real month and day.
 pub fn check_date(date: &str) -> Result<(), String> {
     let parts: Vec<&str> = date.split('-').collect();
     let ok = matches!(parts.as_slice(), [y, m, d] if y.len() == 4 && m.len() == 2 && d.len() == 2)
-        && crate::report::typst::unix_midnight(date)
-            .is_some_and(|s| civil_date(s.div_euclid(86_400)) == date);
+        && crate::study::check::valid_date(date);
     if ok {
         Ok(())
     } else {
