@@ -48,21 +48,25 @@ pub const RECORD: &str = "inputs.json";
 /// are recorded as unreadable rather than read without end.
 const MAX_HASHED_BYTES: u64 = 64 * 1024 * 1024;
 
+/// A regular file opened for a bounded read (one byte past the limit, so a file that grew
+/// beyond it is noticed); `None` for a missing, non-regular or too large file.
+fn bounded_reader(path: &Path) -> Option<std::io::Take<std::fs::File>> {
+    let meta = std::fs::metadata(path).ok()?;
+    if !meta.is_file() || meta.len() > MAX_HASHED_BYTES {
+        return None;
+    }
+    let file = std::fs::File::open(path).ok()?;
+    Some(std::io::Read::take(file, MAX_HASHED_BYTES + 1))
+}
+
 /// SHA-256 of a text file with CRLF line ends read as LF, in a stream and bounded like
 /// [`file_hash`].
 fn text_hash(path: &Path) -> String {
     use sha2::Digest;
     let unreadable = || "unreadable".to_string();
-    let Ok(meta) = std::fs::metadata(path) else {
+    let Some(mut reader) = bounded_reader(path) else {
         return unreadable();
     };
-    if !meta.is_file() || meta.len() > MAX_HASHED_BYTES {
-        return unreadable();
-    }
-    let Ok(file) = std::fs::File::open(path) else {
-        return unreadable();
-    };
-    let mut reader = std::io::Read::take(file, MAX_HASHED_BYTES + 1);
     let mut hasher = sha2::Sha256::new();
     let mut buf = vec![0u8; 64 * 1024];
     let mut pending_cr = false;
@@ -117,17 +121,10 @@ pub fn text_bytes_hash(bytes: &[u8]) -> String {
 pub fn file_hash(path: &Path) -> String {
     use sha2::Digest;
     let unreadable = || "unreadable".to_string();
-    let Ok(meta) = std::fs::metadata(path) else {
-        return unreadable();
-    };
-    if !meta.is_file() || meta.len() > MAX_HASHED_BYTES {
-        return unreadable();
-    }
-    let Ok(file) = std::fs::File::open(path) else {
+    let Some(mut reader) = bounded_reader(path) else {
         return unreadable();
     };
     let mut hasher = sha2::Sha256::new();
-    let mut reader = std::io::Read::take(file, MAX_HASHED_BYTES + 1);
     match std::io::copy(&mut reader, &mut hasher) {
         Ok(n) if n <= MAX_HASHED_BYTES => {
             let digest = hasher.finalize();

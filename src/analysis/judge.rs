@@ -98,7 +98,11 @@ pub struct ErrorEstimate {
     pub ss: f64,
     /// Its degrees of freedom.
     pub df: usize,
-    /// Of those, from replicated two-level runs.
+    /// Of the sum of squares, the scatter of replicated two-level runs.
+    pub ss_replicates: f64,
+    /// Of the sum of squares, the nominal runs' part.
+    pub ss_nominal: f64,
+    /// Of the degrees of freedom, from replicated two-level runs.
     pub df_replicates: usize,
     /// Of those, from the nominal runs (n_C − 1, or n_C − 2 about the drift line when the
     /// values were drift-corrected).
@@ -941,6 +945,8 @@ fn error_estimate(
     let total = ss + ss_nom;
     ErrorEstimate {
         ss: total,
+        ss_replicates: ss,
+        ss_nominal: ss_nom,
         df,
         df_replicates: df_rep,
         df_nominal: df_nom,
@@ -1015,35 +1021,13 @@ fn anova_from_fit(
         curvature_ss: curvature.map(|c| c.ss_curvature),
         residual_ss: fit.rss,
         residual_df: fit.df_residual(),
-        replicate_ss: error.ss - nominal_share(error, runs, design),
+        replicate_ss: error.ss_replicates,
         replicate_df: error.df_replicates,
-        nominal_ss: nominal_share(error, runs, design),
+        nominal_ss: error.ss_nominal,
         nominal_df: error.df_nominal,
         total_ss: total,
         n_observations: all_used.len(),
     })
-}
-
-/// The nominal runs' share of the pooled error sum of squares.
-fn nominal_share(error: &ErrorEstimate, runs: &Runs, design: &Design) -> f64 {
-    let mut groups: BTreeMap<(u8, &[i8]), Vec<f64>> = BTreeMap::new();
-    for ((run, v), u) in design.runs.iter().zip(&runs.values).zip(&runs.used) {
-        if *u && !run.nominal {
-            groups
-                .entry((run.block, run.coded.as_slice()))
-                .or_default()
-                .push(*v);
-        }
-    }
-    let replicate: f64 = groups
-        .values()
-        .filter(|g| g.len() >= 2)
-        .map(|g| {
-            let m = mean(g);
-            g.iter().map(|v| (v - m).powi(2)).sum::<f64>()
-        })
-        .sum();
-    (error.ss - replicate).max(0.0)
 }
 
 /// The verdict on every estimated term.
