@@ -74,6 +74,8 @@ fn the_protocol_pdf_and_its_lock_are_written_and_identical_on_a_rerun() {
         files,
         [
             ".plateau-output",
+            "power-assay.csv",
+            "power-assay.svg",
             "protocol.lock.json",
             "protocol.pdf",
             "protocol.typ",

@@ -8,6 +8,7 @@ pub mod effect_bars;
 pub mod half_normal;
 pub mod interaction;
 pub mod main_effects;
+pub mod power;
 pub mod run_order;
 mod style;
 
@@ -15,6 +16,7 @@ pub use effect_bars::{Bar, EffectBars, effect_bars};
 pub use half_normal::{HalfNormal, HalfNormalPoint, half_normal};
 pub use interaction::{Interaction, interaction};
 pub use main_effects::{MainEffectPanel, MainEffects, main_effects};
+pub use power::{Candidate, Power, power};
 pub use run_order::{Drift, RawPoint, Run, RunOrder, run_order};
 
 /// A vertical or horizontal reference line with its name, e.g. the critical effect

@@ -109,6 +109,14 @@ pub struct PowerTable {
     pub basis: String,
     /// Rows: design, runs, resolution, SE(E), MDE, power, planned (`yes` or empty).
     pub rows: Vec<Vec<String>>,
+    /// The figure of MDE against runs (file name in the protocol folder).
+    pub figure: String,
+    /// Its SVG.
+    #[serde(skip)]
+    pub svg: Vec<u8>,
+    /// The plotted values as CSV (beside the figure).
+    #[serde(skip)]
+    pub csv: Vec<u8>,
 }
 
 fn unit_suffix(unit: &Option<String>) -> String {
@@ -350,10 +358,65 @@ fn power_tables(study: &Study, design: &Design) -> (Vec<PowerTable>, String) {
                     ]
                 })
                 .collect();
+            let label =
+                |c: &crate::analysis::power::Candidate| match (c.kind.as_str(), c.resolution) {
+                    ("full-factorial", _) => "full factorial".to_string(),
+                    ("plackett-burman", _) => format!("Plackett–Burman {}", c.runs),
+                    (_, Some(res)) => {
+                        format!("fraction, res. {}", crate::design::catalogue::roman(res))
+                    }
+                    (kind, None) => kind.to_string(),
+                };
+            let figure = crate::plot::Power {
+                candidates: r
+                    .candidates
+                    .iter()
+                    .map(|c| crate::plot::Candidate {
+                        label: label(c),
+                        runs: c.runs,
+                        mde: c.mde,
+                        planned: c.planned,
+                    })
+                    .collect(),
+                limit: r.limit.map(|l| crate::plot::RefLine {
+                    name: "limit".into(),
+                    value: l,
+                }),
+                y_title: format!(
+                    "MDE{}",
+                    r.unit
+                        .as_deref()
+                        .map(|u| format!(" ({u})"))
+                        .unwrap_or_default()
+                ),
+            };
+            let svg = crate::plot::power(&figure).ok()?.into_bytes();
+            let csv = crate::output::csv_bytes(
+                &[
+                    "design".into(),
+                    "runs".into(),
+                    "mde".into(),
+                    "planned".into(),
+                ],
+                &r.candidates
+                    .iter()
+                    .map(|c| {
+                        vec![
+                            label(c),
+                            c.runs.to_string(),
+                            c.mde.to_string(),
+                            c.planned.to_string(),
+                        ]
+                    })
+                    .collect::<Vec<_>>(),
+            );
             Some(PowerTable {
                 name: r.name.clone(),
                 basis,
                 rows,
+                figure: format!("power-{}.svg", r.id),
+                svg,
+                csv,
             })
         })
         .collect();
@@ -523,7 +586,7 @@ pub fn write(
         "protocol.typ.j2",
         minijinja::Value::from(minijinja::value::Serde(&ctx)),
     )?;
-    let files = vec![
+    let mut files = vec![
         (SOURCE_FILE.to_string(), source.into_bytes()),
         (LOCK_FILE.to_string(), lock.bytes()),
         (
@@ -531,6 +594,10 @@ pub fn write(
             sheet::csv(study, design, sheet::Levels::Real).into_bytes(),
         ),
     ];
+    for p in &ctx.power {
+        files.push((p.figure.clone(), p.svg.clone()));
+        files.push((p.figure.replace(".svg", ".csv"), p.csv.clone()));
+    }
     // The PDF is dated by its approval (when this is the approved plan), else the study date.
     let date = ctx
         .approved
