@@ -340,7 +340,10 @@ fn power_tables(study: &Study, design: &Design) -> (Vec<PowerTable>, String) {
                 .iter()
                 .map(|c| {
                     vec![
-                        c.kind.replace('-', " "),
+                        match c.kind.as_str() {
+                            "plackett-burman" => "Plackett–Burman".to_string(),
+                            other => other.replace('-', " "),
+                        },
                         c.runs.to_string(),
                         c.resolution
                             .map(crate::design::catalogue::roman)
