@@ -36,6 +36,9 @@ pub struct Inputs {
     /// Each file the report wrote (name, SHA-256 of its exact bytes), the PDF included.
     #[serde(default)]
     pub outputs: Vec<(String, String)>,
+    /// The protocol lock and its SHA-256, if the study names one.
+    #[serde(default)]
+    pub lock: Option<(String, String)>,
 }
 
 /// The templates a report is rendered from (the others make run sheets, diffs and records).
@@ -160,6 +163,10 @@ pub fn inputs(study: &Study, templates: Option<&Path>, typst_version: Option<&st
             .map(|f| (name(f), file_hash(&dir.join(f)))),
         templates: templates_used(templates),
         outputs: Vec::new(),
+        lock: study
+            .protocol
+            .as_ref()
+            .map(|p| (p.lock.clone(), text_hash(&dir.join(&p.lock)))),
     }
 }
 
@@ -222,6 +229,9 @@ pub fn changes(recorded: &Inputs, now: &Inputs) -> Vec<String> {
     }
     if recorded.logo != now.logo {
         out.push("logo changed".to_string());
+    }
+    if recorded.lock != now.lock {
+        out.push("protocol lock changed".to_string());
     }
     for t in &now.templates {
         if !recorded.templates.contains(t) {

@@ -463,3 +463,35 @@ results:
         "{source}"
     );
 }
+
+#[test]
+fn status_tells_when_the_lock_a_report_was_made_with_is_replaced() {
+    let (dir, study) = study_copy();
+    lock(&study);
+    plateau(&["report", "--no-pdf"]).arg_path(&study).ok();
+    plateau(&["status", "--typst", "/nonexistent"])
+        .arg_path(&study)
+        .ok();
+    // A second, valid lock of a changed plan written over the first (e.g. a checkout of
+    // another protocol revision): the report was not made under it.
+    edit(&study, "delta: 2", "delta: 3");
+    let other = dir.path().join("other");
+    plateau(&["protocol", "--typst", &typst_arg(), "-o"])
+        .arg_path(&other)
+        .arg_path(&study)
+        .ok();
+    edit(&study, "delta: 3", "delta: 2");
+    std::fs::copy(
+        other.join("protocol.lock.json"),
+        dir.path().join("study-protocol/protocol.lock.json"),
+    )
+    .unwrap();
+    let run = plateau(&["status", "--typst", "/nonexistent"])
+        .arg_path(&study)
+        .code(1);
+    assert!(
+        run.stdout.contains("protocol lock changed"),
+        "{}",
+        run.stdout
+    );
+}
