@@ -4,6 +4,7 @@
 //! and rounded only when the report prints them.
 
 pub mod anova;
+pub mod criteria;
 pub mod criterion;
 pub mod curvature;
 pub mod decision;
@@ -11,9 +12,12 @@ pub mod drift;
 pub mod effects;
 pub mod judge;
 pub mod model;
+pub mod observations;
 pub mod power;
+pub mod proposals;
 pub mod quantile;
 pub mod risk;
+pub mod summary;
 pub mod text;
 pub mod verdict;
 

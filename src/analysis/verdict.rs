@@ -5,7 +5,10 @@
 
 use serde::Serialize;
 
+use super::Effect;
 use super::drift::CorrectionMode;
+use crate::design::Design;
+use crate::study::Study;
 
 /// What the judgment of one response comes to.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -164,4 +167,139 @@ pub struct Verdict {
     /// Alias chains beyond the limit (or significant, without a limit) that the design
     /// cannot resolve.
     pub unresolved: Vec<UnresolvedChain>,
+}
+
+/// The verdict on every estimated term.
+pub(super) fn verdict(
+    study: &Study,
+    design: &Design,
+    effects: &[Effect],
+    practical: bool,
+    no_statistics: bool,
+) -> Verdict {
+    let real = |e: &&Effect| !e.dummy;
+    let clean: Vec<&Effect> = effects
+        .iter()
+        .filter(real)
+        .filter(|e| e.estimable)
+        .collect();
+    let in_file_order = |set: &dyn Fn(&str) -> bool| -> Vec<String> {
+        study
+            .factors
+            .iter()
+            .filter(|f| set(&f.id))
+            .map(|f| f.id.clone())
+            .collect()
+    };
+    let relevant_terms: Vec<&Effect> = if practical {
+        clean
+            .iter()
+            .copied()
+            .filter(|e| e.relevant == Some(true))
+            .collect()
+    } else {
+        Vec::new()
+    };
+    let significant_terms: Vec<&Effect> = clean
+        .iter()
+        .copied()
+        .filter(|e| e.significant == Some(true))
+        .collect();
+    let relevant_factors = in_file_order(&|id| {
+        relevant_terms
+            .iter()
+            .any(|e| e.factors.iter().any(|f| f == id))
+    });
+    let significant_factors = in_file_order(&|id| {
+        significant_terms
+            .iter()
+            .any(|e| e.factors.iter().any(|f| f == id))
+    });
+    let unresolved: Vec<UnresolvedChain> = effects
+        .iter()
+        .filter(real)
+        .filter(|e| !e.estimable)
+        .filter(|e| {
+            if practical {
+                e.relevant == Some(true)
+            } else {
+                e.significant == Some(true)
+            }
+        })
+        .map(|e| {
+            let mut terms = vec![e.factors.clone()];
+            terms.extend(e.aliases.iter().cloned());
+            let factors = in_file_order(&|id| terms.iter().any(|t| t.iter().any(|f| f == id)));
+            UnresolvedChain {
+                label: e.label.clone(),
+                follow_up: follow_up(design, &terms),
+                terms,
+                factors,
+                effect: e.effect,
+                relevant: e.relevant == Some(true),
+                significant: e.significant == Some(true),
+            }
+        })
+        .collect();
+    let judged_statistically = effects.iter().any(|e| e.significant.is_some());
+    let any_significant = effects
+        .iter()
+        .filter(real)
+        .any(|e| e.significant == Some(true));
+    let outcome = if practical {
+        if !relevant_terms.is_empty() {
+            Outcome::NotRobust
+        } else if !unresolved.is_empty() {
+            Outcome::Unresolved
+        } else {
+            Outcome::Robust
+        }
+    } else if judged_statistically && !no_statistics {
+        Outcome::StatisticalOnly
+    } else {
+        Outcome::NotJudged
+    };
+    Verdict {
+        outcome,
+        robust: practical.then_some(relevant_terms.is_empty() && unresolved.is_empty()),
+        no_significant_effect: judged_statistically.then_some(!any_significant),
+        relevant_factors,
+        significant_factors,
+        relevant_interactions: relevant_terms
+            .iter()
+            .filter(|e| e.order > 1)
+            .map(|e| e.label.clone())
+            .collect(),
+        relevant_terms: relevant_terms.iter().map(|e| e.label.clone()).collect(),
+        significant_terms: significant_terms.iter().map(|e| e.label.clone()).collect(),
+        significant_not_relevant: if practical {
+            significant_terms
+                .iter()
+                .filter(|e| e.relevant == Some(false))
+                .map(|e| e.label.clone())
+                .collect()
+        } else {
+            Vec::new()
+        },
+        unresolved,
+    }
+}
+
+/// The follow-up runs that separate a chain: a full fold-over when the chain holds a main
+/// effect (it frees every main effect from the two-factor interactions), otherwise a fold on
+/// one factor of the chain's first interaction (it frees that factor's two-factor
+/// interactions) — Montgomery, Design and Analysis of Experiments, §8.6; Box, Hunter & Hunter
+/// 2005 §6.8–6.9.
+pub(super) fn follow_up(design: &Design, terms: &[Vec<String>]) -> FollowUp {
+    let runs = design.base_runs.max(1);
+    if terms.iter().any(|t| t.len() == 1) {
+        return FollowUp::FullFoldOver { runs };
+    }
+    match terms.first().and_then(|t| t.first()) {
+        Some(f) => FollowUp::FoldOnFactor {
+            factor: f.clone(),
+            runs,
+        },
+        None => FollowUp::FullFoldOver { runs },
+    }
 }
