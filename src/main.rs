@@ -584,7 +584,7 @@ fn run(command: Command) -> Result<(), Failure> {
                     .map_err(|e| Failure::Other(e.to_string()))?;
                 println!("{text}");
             } else {
-                print!("{}", plateau::analysis::text::tables(&evaluated));
+                print!("{}", plateau::report::terminal::tables(&evaluated));
             }
             Ok(())
         }

@@ -18,7 +18,7 @@ pub mod proposals;
 pub mod quantile;
 pub mod risk;
 pub mod summary;
-pub mod text;
+
 pub mod verdict;
 
 pub use verdict::{FollowUp, Note, Outcome, UnresolvedChain, Verdict};

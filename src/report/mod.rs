@@ -17,6 +17,7 @@ pub mod protocol;
 pub mod render;
 pub mod runsheet;
 pub mod tables;
+pub mod terminal;
 pub mod typst;
 
 use std::path::{Path, PathBuf};

@@ -1,4 +1,5 @@
-//! The effects tables as plain text for the terminal (`plateau analyze`).
+//! The effects tables as plain text for the terminal (`plateau analyze`); part of the report
+//! layer because it words the verdicts.
 
 use crate::pipeline::Evaluated;
 use crate::report::conclusion::{PERCENT_DECIMALS, limit_text, sentences};
