@@ -23,36 +23,8 @@ pub const MIN_PSEUDO_CONTRASTS: usize = 7;
 /// Note used when an error estimate is exactly zero.
 pub const NOTE_ALL_ZERO: &str = "the method cannot judge: all effects are zero (PSE = 0)";
 
-/// How the critical effect was obtained.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum Method {
-    /// From a known precision s with ν degrees of freedom (e.g. intermediate precision).
-    Precision,
-    /// From the effects of dummy factors.
-    Dummies,
-    /// From interactions declared negligible before the study.
-    Negligible,
-    /// Dong's algorithm (1993).
-    Dong,
-    /// Lenth's method (1989).
-    Lenth,
-    /// From the pure-error mean square of a replicated design.
-    Anova,
-}
-
-impl Method {
-    fn name(self) -> &'static str {
-        match self {
-            Method::Precision => "precision",
-            Method::Dummies => "dummies",
-            Method::Negligible => "negligible",
-            Method::Dong => "dong",
-            Method::Lenth => "lenth",
-            Method::Anova => "anova",
-        }
-    }
-}
+/// How the critical effect was obtained (defined once, with the study file).
+pub use crate::study::model::Method;
 
 /// A critical effect and the numbers it was derived from.
 ///
@@ -177,7 +149,7 @@ impl Critical {
         check_alpha(alpha)?;
         if !matches!(method, Method::Dummies | Method::Negligible) {
             return Err(StatError::Method {
-                got: method.name(),
+                got: method.as_str(),
                 expected: "dummies or negligible",
             });
         }

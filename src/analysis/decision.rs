@@ -225,17 +225,8 @@ pub fn non_significance_interval(
     Some((nominal - w / 2.0, nominal + w / 2.0))
 }
 
-/// How the routine variation ±a of a factor is distributed.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum Distribution {
-    /// Equally likely anywhere in ±a: u = a/√3 (GUM JCGM 100:2008 §4.3.7).
-    Rectangular,
-    /// Most likely at the centre, zero at ±a: u = a/√6 (GUM §4.3.9).
-    Triangular,
-    /// ±a read as a 95 % interval of a normal distribution: u = a/1.96 (GUM §4.3.4).
-    Normal95,
-}
+/// How the routine variation ±a of a factor is distributed (defined once, with the study file).
+pub use crate::study::model::Distribution;
 
 /// One factor's contribution to the measurement uncertainty.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -288,7 +279,7 @@ pub fn uncertainty(
     let divisor = match distribution {
         Distribution::Rectangular => 3f64.sqrt(),
         Distribution::Triangular => 6f64.sqrt(),
-        Distribution::Normal95 => 1.96,
+        Distribution::Normal => 1.96,
     };
     let u_x = routine_half_width / divisor;
     Ok(Contribution {
@@ -391,7 +382,7 @@ mod tests {
     fn normal_95_divisor_is_1_96_and_triangular_is_root_6() {
         // 1.960 for a 95 % interval: NIST TN 1297 §4.3 (same rule as GUM §4.3.4);
         // √6 for triangular: GUM §4.3.9 (from memory).
-        let n = uncertainty(1.0, 0.0, 1.0, 1.96, Distribution::Normal95).unwrap();
+        let n = uncertainty(1.0, 0.0, 1.0, 1.96, Distribution::Normal).unwrap();
         assert!((n.u_x - 1.0).abs() < 1e-15);
         let t = uncertainty(1.0, 0.0, 1.0, 6f64.sqrt(), Distribution::Triangular).unwrap();
         assert!((t.u_x - 1.0).abs() < 1e-15);

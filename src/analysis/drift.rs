@@ -26,15 +26,8 @@ pub struct Drift {
     pub note: Option<String>,
 }
 
-/// How the drift correction is applied.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum CorrectionMode {
-    /// y_corr = y − (ŷ_nom(t) − y_nom(t₀)).
-    Additive,
-    /// y_corr = y · y_nom(t₀)/ŷ_nom(t).
-    Relative,
-}
+/// How the drift correction is applied (defined once, with the study file).
+pub use crate::study::model::CorrectionMode;
 
 /// Fewest nominal runs for a drift test (two leave no degree of freedom).
 pub const MIN_NOMINAL_FOR_TEST: usize = 3;

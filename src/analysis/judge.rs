@@ -289,7 +289,7 @@ pub fn analyse_response(
             }
         }
         criteria.push(CriterionSummary {
-            method: crate::study::check::method_text(rule.method).into(),
+            method: rule.method.as_str().into(),
             alpha: Some(critical.alpha),
             se: critical.se,
             df: critical.df,

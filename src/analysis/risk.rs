@@ -148,7 +148,7 @@ pub fn routine_risk(
             let u = match v.distribution {
                 Distribution::Rectangular => 2.0 * uniform() - 1.0,
                 Distribution::Triangular => uniform() + uniform() - 1.0,
-                Distribution::Normal95 => standard_normal(&mut uniform) / 1.96,
+                Distribution::Normal => standard_normal(&mut uniform) / 1.96,
             };
             if let Some(slot) = x.get_mut(v.index) {
                 *slot = v.nominal_coded + v.a_coded * u;

@@ -316,7 +316,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
                 match row.distribution {
                     Distribution::Rectangular => "rectangular (a/√3)".into(),
                     Distribution::Triangular => "triangular (a/√6)".into(),
-                    Distribution::Normal95 => "normal, 95 % (a/1.96)".into(),
+                    Distribution::Normal => "normal, 95 % (a/1.96)".into(),
                 },
                 format!("{}{fu}", sig(row.contribution.u_x, UNCERTAINTY_DIGITS)),
                 sig(row.contribution.c, SIGNIFICANT),

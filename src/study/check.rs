@@ -226,16 +226,9 @@ fn factors(c: &mut Checker<'_>, specs: &[model::FactorSpec]) -> Vec<Factor> {
                 levels,
                 justification: f.justification.clone(),
                 routine: f.routine.map(|a| {
-                    use crate::analysis::decision::Distribution;
                     (
                         a,
-                        match f.distribution {
-                            None | Some(model::DistributionSpec::Rectangular) => {
-                                Distribution::Rectangular
-                            }
-                            Some(model::DistributionSpec::Triangular) => Distribution::Triangular,
-                            Some(model::DistributionSpec::Normal) => Distribution::Normal95,
-                        },
+                        f.distribution.unwrap_or(model::Distribution::Rectangular),
                     )
                 }),
             });
@@ -389,14 +382,7 @@ fn design(
         nominal_runs,
         replicates: spec.replicates.unwrap_or(1) as usize,
         seed,
-        drift_correction: spec.drift_correction.map(|d| match d {
-            model::DriftCorrectionSpec::Additive => {
-                crate::analysis::drift::CorrectionMode::Additive
-            }
-            model::DriftCorrectionSpec::Relative => {
-                crate::analysis::drift::CorrectionMode::Relative
-            }
-        }),
+        drift_correction: spec.drift_correction,
     };
     let kind_name = kind_text(spec.kind);
     let not_here = |c: &mut Checker<'_>, name: &str, present: bool, hint: &str| {
@@ -1034,7 +1020,7 @@ type Rules = (
 );
 
 fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> Rules {
-    use crate::analysis::criterion::Method;
+    use model::Method;
     let mut limits = Vec::new();
     let mut significance = Vec::new();
     let mut suitability = Vec::new();
@@ -1114,19 +1100,12 @@ fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> 
         }
         let Some(sig) = &a.significance else { continue };
         let here = at.key("significance");
-        let method = match sig.method {
-            model::MethodSpec::Precision => Method::Precision,
-            model::MethodSpec::Dummies => Method::Dummies,
-            model::MethodSpec::Negligible => Method::Negligible,
-            model::MethodSpec::Dong => Method::Dong,
-            model::MethodSpec::Lenth => Method::Lenth,
-            model::MethodSpec::Anova => Method::Anova,
-        };
+        let method = sig.method;
         let only_for = |c: &mut Checker<'_>, name: &str, present: bool, owner: &str| {
             if present {
                 c.report(
                     &here.key(name),
-                    format!("`{name}` does not apply to method {}", method_text(method)),
+                    format!("`{name}` does not apply to method {}", method.as_str()),
                     Some(format!("`{name}` belongs to method {owner}")),
                 );
             }
@@ -1224,19 +1203,6 @@ fn acceptance(c: &mut Checker<'_>, file: &StudyFile, responses: &[Response]) -> 
         });
     }
     (limits, significance, suitability)
-}
-
-/// The method's name as written in the study file.
-pub fn method_text(method: crate::analysis::criterion::Method) -> &'static str {
-    use crate::analysis::criterion::Method;
-    match method {
-        Method::Precision => "precision",
-        Method::Dummies => "dummies",
-        Method::Negligible => "negligible",
-        Method::Dong => "dong",
-        Method::Lenth => "lenth",
-        Method::Anova => "anova",
-    }
 }
 
 /// A term written as factor ids joined by `×`, `*` or `x` surrounded by spaces.

@@ -115,7 +115,7 @@ pub struct Factor {
     /// Why the range was chosen.
     pub justification: Option<String>,
     /// Expected routine variation ±a and its distribution.
-    pub routine: Option<(f64, crate::analysis::decision::Distribution)>,
+    pub routine: Option<(f64, model::Distribution)>,
 }
 
 /// The levels of a factor.
@@ -221,7 +221,7 @@ pub struct DesignRequest {
     /// Seed for the run order, `None` for standard order.
     pub seed: Option<u64>,
     /// Drift correction from the nominal runs.
-    pub drift_correction: Option<crate::analysis::drift::CorrectionMode>,
+    pub drift_correction: Option<model::CorrectionMode>,
 }
 
 /// One run of an explicit design.
@@ -264,7 +264,7 @@ pub struct SignificanceRule {
     /// Position of the rule in `acceptance` (for messages).
     pub entry: usize,
     /// The error model.
-    pub method: crate::analysis::criterion::Method,
+    pub method: model::Method,
     /// Significance level.
     pub alpha: f64,
     /// Known standard deviation (precision).

@@ -131,26 +131,48 @@ pub enum SourceKind {
     Development,
 }
 
-/// How a factor's routine variation ±a is distributed.
+/// How a factor's routine variation ±a is distributed (one type for the study file and the
+/// analysis).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
 #[serde(rename_all = "kebab-case")]
-pub enum DistributionSpec {
-    /// u = a/√3.
+pub enum Distribution {
+    /// Equally likely anywhere in ±a: u = a/√3 (GUM JCGM 100:2008 §4.3.7).
     Rectangular,
-    /// u = a/√6.
+    /// Most likely at the centre, zero at ±a: u = a/√6 (GUM §4.3.9).
     Triangular,
-    /// ±a is a 95 % interval: u = a/1.96.
+    /// ±a read as a 95 % interval of a normal distribution: u = a/1.96 (GUM §4.3.4).
     Normal,
 }
 
-/// Drift correction from the nominal runs.
+impl Distribution {
+    /// The name as written in the study file.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Distribution::Rectangular => "rectangular",
+            Distribution::Triangular => "triangular",
+            Distribution::Normal => "normal",
+        }
+    }
+}
+
+/// Drift correction from the nominal runs (one type for the study file and the analysis).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
 #[serde(rename_all = "kebab-case")]
-pub enum DriftCorrectionSpec {
-    /// y − (ŷ_nom(t) − y_nom(t₀)).
+pub enum CorrectionMode {
+    /// y_corr = y − (ŷ_nom(t) − y_nom(t₀)).
     Additive,
-    /// y · y_nom(t₀)/ŷ_nom(t).
+    /// y_corr = y · y_nom(t₀)/ŷ_nom(t).
     Relative,
+}
+
+impl CorrectionMode {
+    /// The name as written in the study file.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            CorrectionMode::Additive => "additive",
+            CorrectionMode::Relative => "relative",
+        }
+    }
 }
 
 /// What a response is for.
@@ -163,10 +185,10 @@ pub enum Role {
     Suitability,
 }
 
-/// Significance methods.
+/// How a critical effect is obtained (one type for the study file and the analysis).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
 #[serde(rename_all = "kebab-case")]
-pub enum MethodSpec {
+pub enum Method {
     /// From a known standard deviation.
     Precision,
     /// From the dummy columns.
@@ -181,12 +203,26 @@ pub enum MethodSpec {
     Anova,
 }
 
+impl Method {
+    /// The name as written in the study file.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Method::Precision => "precision",
+            Method::Dummies => "dummies",
+            Method::Negligible => "negligible",
+            Method::Dong => "dong",
+            Method::Lenth => "lenth",
+            Method::Anova => "anova",
+        }
+    }
+}
+
 /// `significance: {method, alpha, ...}`.
 #[derive(Debug, Clone, Deserialize, Serialize)]
 #[serde(deny_unknown_fields, rename_all = "kebab-case")]
 pub struct SignificanceSpec {
     /// The error model.
-    pub method: MethodSpec,
+    pub method: Method,
     /// Significance level (default 0.05).
     #[serde(default)]
     pub alpha: Option<f64>,
@@ -266,7 +302,7 @@ pub struct FactorSpec {
     pub routine: Option<f64>,
     /// Distribution of the routine variation (default rectangular).
     #[serde(default)]
-    pub distribution: Option<DistributionSpec>,
+    pub distribution: Option<Distribution>,
 }
 
 /// The kinds of design the study file can ask for.
@@ -386,7 +422,7 @@ pub struct DesignSpec {
     pub randomize: Option<RandomizeSpec>,
     /// Correct the responses for drift seen in the nominal runs.
     #[serde(default)]
-    pub drift_correction: Option<DriftCorrectionSpec>,
+    pub drift_correction: Option<CorrectionMode>,
 }
 
 /// Which value percent effects are taken against.
