@@ -19,6 +19,7 @@ pub mod runsheet;
 pub mod tables;
 pub mod terminal;
 pub mod typst;
+pub mod wording;
 
 use std::path::{Path, PathBuf};
 
