@@ -8,12 +8,14 @@
 
 pub mod conclusion;
 pub mod context;
+pub mod design_text;
 pub mod escape;
 pub mod figures;
 pub mod format;
 pub mod judging;
 pub mod power;
 pub mod protocol;
+pub mod references;
 pub mod render;
 pub mod runsheet;
 pub mod tables;
