@@ -41,6 +41,7 @@ pub fn check(instance: &Value, text: &str, file_name: &str) -> Diagnostics {
         return out;
     };
     let locator = Locator::new(text);
+    let mut seen = std::collections::BTreeSet::new();
     for error in validator.iter_errors(instance) {
         let path = FieldPath(
             error
@@ -55,21 +56,113 @@ pub fn check(instance: &Value, text: &str, file_name: &str) -> Diagnostics {
         // Indices and numeric keys look the same in a pointer; decide by the data itself.
         let path = resolve_indices(instance, path);
         let schema_path = error.schema_path().as_str().to_string();
-        for d in describe(
-            error.kind(),
-            &path,
-            &schema_path,
-            error.instance(),
-            file_name,
-        ) {
+        let described = match rule_at(&schema_path) {
+            Some(rule) => vec![(
+                ruled(error.kind(), &path, rule, error.instance(), file_name),
+                None,
+            )],
+            None => describe(
+                error.kind(),
+                &path,
+                &schema_path,
+                error.instance(),
+                file_name,
+            ),
+        };
+        for d in described {
             let position = match &d.1 {
                 Some(key) => locator.key(&path.0, key),
                 None => locator.value(&path.0),
             };
-            out.push(d.0.at(position));
+            let d = d.0.at(position);
+            // One fault can break a rule twice (`delta` with both `low` and `high`): say it once.
+            if seen.insert(d.to_string()) {
+                out.push(d);
+            }
         }
     }
     out.sorted()
+}
+
+/// A rule of the schema: a subschema with a `title` stating the fault it catches and a
+/// `description` saying what would be valid (the convention of the schema's `$comment`).
+struct Rule {
+    title: &'static str,
+    description: &'static str,
+}
+
+/// The rule holding the failed keyword at `schema_path`, when that subschema is one.
+fn rule_at(schema_path: &str) -> Option<Rule> {
+    let holder = schema_path.rsplit_once('/')?.0;
+    if holder.is_empty() {
+        return None; // the root's title names the document, not a rule
+    }
+    let node = node_at(holder)?;
+    Some(Rule {
+        title: node.get("title")?.as_str()?,
+        description: node
+            .get("description")
+            .and_then(Value::as_str)
+            .unwrap_or(""),
+    })
+}
+
+/// The message for a broken rule: its title is the problem, its description what is valid. A
+/// missing field is named as such, with the rule's title as the reason.
+fn ruled(
+    kind: &ValidationErrorKind,
+    path: &FieldPath,
+    rule: Rule,
+    instance: &Value,
+    file: &str,
+) -> Diagnostic {
+    let expected = expected_text(rule.description);
+    match kind {
+        ValidationErrorKind::Required { property } => {
+            let name = property.as_str().unwrap_or("?");
+            Diagnostic::field(
+                file,
+                &path.key(name),
+                format!("missing `{name}`: {}", rule.title),
+                expected,
+            )
+        }
+        _ => Diagnostic::field(
+            file,
+            path,
+            format!("{}{}", rule.title, found(instance)),
+            expected,
+        ),
+    }
+}
+
+/// What the user wrote, where it helps to see it beside the rule: the items of a short list, a
+/// text. Numbers and mappings are left out (the field path already shows where they are).
+fn found(instance: &Value) -> String {
+    match instance {
+        Value::Array(items)
+            if items.len() <= 5 && items.iter().all(|v| !v.is_object() && !v.is_array()) =>
+        {
+            let shown: Vec<String> = items.iter().map(shown).collect();
+            let noun = if items.len() == 1 { "item" } else { "items" };
+            format!(" (found {} {noun}: {})", items.len(), shown.join(", "))
+        }
+        Value::Array(items) => format!(" (found {} items)", items.len()),
+        Value::String(_) => format!(" (found {})", shown(instance)),
+        _ => String::new(),
+    }
+}
+
+/// A description written for editors ("Both `low` and `high`.") as the message's last line.
+fn expected_text(description: &str) -> Option<String> {
+    let text = description.trim().trim_end_matches('.');
+    let mut chars = text.chars();
+    let first = chars.next()?;
+    Some(format!(
+        "expected {}{}",
+        first.to_lowercase(),
+        chars.as_str()
+    ))
 }
 
 fn resolve_indices(instance: &Value, path: FieldPath) -> FieldPath {
@@ -103,24 +196,31 @@ fn resolve_indices(instance: &Value, path: FieldPath) -> FieldPath {
 /// `/additionalProperties`), for suggestions.
 fn allowed_properties(schema_path: &str) -> Vec<String> {
     let parent = schema_path.trim_end_matches("/additionalProperties");
+    node_at(parent)
+        .and_then(|node| node.get("properties"))
+        .and_then(Value::as_object)
+        .map(|m| m.keys().cloned().collect())
+        .unwrap_or_default()
+}
+
+/// The schema node at a keyword location (a JSON pointer into the schema that steps through
+/// `$ref` without naming its target), following each `$ref` on the way.
+fn node_at(schema_path: &str) -> Option<&'static Value> {
     let mut node = schema();
-    for raw in parent.split('/').skip(1) {
+    for raw in schema_path.split('/').skip(1) {
         let key = raw.replace("~1", "/").replace("~0", "~");
         if key == "$ref" {
             continue; // already followed below
         }
-        node = match node.get(&key) {
-            Some(n) => n,
-            None => return Vec::new(),
+        node = match node {
+            Value::Array(items) => items.get(key.parse::<usize>().ok()?)?,
+            other => other.get(&key)?,
         };
         if let Some(target) = node.get("$ref").and_then(Value::as_str) {
             node = resolve_ref(target).unwrap_or(node);
         }
     }
-    node.get("properties")
-        .and_then(Value::as_object)
-        .map(|m| m.keys().cloned().collect())
-        .unwrap_or_default()
+    Some(node)
 }
 
 fn resolve_ref(target: &str) -> Option<&'static Value> {
@@ -282,11 +382,36 @@ fn describe(
             "the text is too long".to_string(),
             Some(format!("expected at most {limit} characters")),
         ),
+        ValidationErrorKind::Pattern { pattern } if is_date_pattern(pattern) => plain(
+            format!(
+                "`{}` is not a calendar date",
+                instance.as_str().unwrap_or("")
+            ),
+            Some(pattern_hint(pattern)),
+        ),
         ValidationErrorKind::Pattern { pattern } => plain(
             format!("{} is not in the expected form", shown(instance)),
             Some(pattern_hint(pattern)),
         ),
-        ValidationErrorKind::OneOfNotValid { .. } | ValidationErrorKind::AnyOf { .. } => {
+        ValidationErrorKind::OneOfNotValid { .. }
+        | ValidationErrorKind::OneOfMultipleValid { .. }
+        | ValidationErrorKind::AnyOf { .. } => {
+            let seed = instance.get("seed").filter(|s| s.is_number());
+            if schema_path.contains("randomize") && instance == &Value::Bool(true) {
+                return plain(
+                    "`randomize: true` gives no seed, so the run order could not be reproduced"
+                        .into(),
+                    Some("expected `randomize: {seed: <number>}` or `randomize: false`".into()),
+                );
+            }
+            if schema_path.contains("randomize") && seed.is_some() {
+                // Not the number itself: past 2^53 it has already been rounded on reading.
+                return plain(
+                    "the seed is not a whole number from 0 to 18446744073709551615 (2^64 − 1)"
+                        .into(),
+                    Some("expected false or {seed: <non-negative integer>}".into()),
+                );
+            }
             let expected = if schema_path.contains("randomize") {
                 "expected false or {seed: <non-negative integer>}"
             } else if schema_path.contains("results") {
@@ -299,7 +424,22 @@ fn describe(
                 Some(expected.to_string()),
             )
         }
-        other => plain(format!("{other:?}"), None),
+        ValidationErrorKind::MaxItems { limit } => plain(
+            "the list is too long".to_string(),
+            Some(format!("expected at most {limit} item(s)")),
+        ),
+        ValidationErrorKind::UniqueItems => plain(
+            "the list repeats an item".to_string(),
+            Some("expected each item once".into()),
+        ),
+        ValidationErrorKind::Not { .. } | ValidationErrorKind::FalseSchema => plain(
+            format!("{} is not allowed here", shown(instance)),
+            Some("see the schema (`plateau schema`) for the accepted forms".into()),
+        ),
+        other => plain(
+            format!("{} is not valid here ({other:?})", shown(instance)),
+            None,
+        ),
     }
 }
 
@@ -315,9 +455,18 @@ fn json_type(t: &str) -> String {
     }
 }
 
+/// The study date's pattern (months 01–12, days within the month's length).
+fn is_date_pattern(pattern: &str) -> bool {
+    pattern.contains("(0[13578]")
+}
+
 fn pattern_hint(pattern: &str) -> String {
-    if pattern.contains("[0-9]{4}") {
-        "expected a date as YYYY-MM-DD".into()
+    if is_date_pattern(pattern) {
+        "expected a date as YYYY-MM-DD, e.g. 2026-11-18".into()
+    } else if pattern.contains("[Pp][Nn][Gg]") {
+        "expected a file name ending in .png, .jpg, .jpeg or .svg".into()
+    } else if pattern.starts_with("^[0-9]+") {
+        "expected a section number such as 7.4".into()
     } else if pattern.starts_with("^[A-Za-z]") {
         "expected an identifier: a letter, then letters, digits, `_` or `-` (at most 40)".into()
     } else {
