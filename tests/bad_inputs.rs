@@ -577,3 +577,171 @@ fn the_schema_rejects_every_fault_it_can_express() {
         "faults the schema or `plateau check` let through: {accepted:#?}"
     );
 }
+
+fn plateau_in(dir: &Path, args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_plateau"))
+        .args(args)
+        .current_dir(dir)
+        .env("NO_COLOR", "1")
+        .output()
+        .unwrap()
+}
+
+fn read_json(path: &Path) -> serde_json::Value {
+    let text = std::fs::read_to_string(path).unwrap();
+    serde_json::from_str(&text).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+}
+
+#[test]
+fn every_example_analysis_json_matches_the_published_analysis_schema() {
+    let schema = read_json(&crate_root().join("schemas/analysis.schema.json"));
+    let validator = jsonschema::validator_for(&schema).expect("the analysis schema compiles");
+    let examples = studies_under("examples", false);
+    assert!(examples.len() >= 4, "too few examples: {examples:?}");
+    for study in &examples {
+        let out = plateau_in(&crate_root(), &["analyze", "--json", study]);
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{study}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let doc: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        assert_eq!(
+            doc["schema_version"], 1,
+            "{study}: the document names its layout version"
+        );
+        let errors: Vec<String> = validator
+            .iter_errors(&doc)
+            .map(|e| format!("{}: {e}", e.instance_path()))
+            .collect();
+        assert!(
+            errors.is_empty(),
+            "{study}: analyze --json breaks the schema: {errors:#?}"
+        );
+    }
+    // The schema's own version is the document's.
+    assert_eq!(schema["properties"]["schema_version"]["const"], 1);
+    assert!(schema["$id"].as_str().is_some_and(|id| id.contains("/1/")));
+}
+
+#[test]
+fn the_independent_validator_accepted_every_starter_study() {
+    let starters = verdicts()["starters"]
+        .as_object()
+        .expect("verdicts.json has `starters` (made with --plateau)");
+    assert_eq!(
+        starters.len(),
+        5,
+        "one starter per design kind: {starters:?}"
+    );
+    for (kind, v) in starters {
+        assert_eq!(v["verdict"], "valid", "plateau new --kind {kind}: {v}");
+    }
+}
+
+#[test]
+fn the_independent_validator_accepted_every_example_analysis_json() {
+    let analyses = verdicts()["analyses"]
+        .as_object()
+        .expect("verdicts.json has `analyses` (made with --plateau)");
+    for study in studies_under("examples", false) {
+        assert_eq!(
+            analyses.get(&study).and_then(|v| v["verdict"].as_str()),
+            Some("valid"),
+            "{study}: check-jsonschema verdict on its analyze --json output"
+        );
+    }
+}
+
+#[test]
+fn schema_output_file_is_written_once_and_never_replaced() {
+    let dir = tempfile::tempdir().unwrap();
+    let first = plateau_in(dir.path(), &["schema", "-o", "study.schema.json"]);
+    assert_eq!(
+        first.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&first.stderr)
+    );
+    let written = std::fs::read_to_string(dir.path().join("study.schema.json")).unwrap();
+    assert_eq!(written, plateau::study::schema::SCHEMA_TEXT);
+    // The same schema again: left alone, and not an error (scripts may run it every time).
+    let again = plateau_in(dir.path(), &["schema", "-o", "study.schema.json"]);
+    assert_eq!(again.status.code(), Some(0));
+    assert!(String::from_utf8_lossy(&again.stdout).contains("already holds this schema"));
+    // A different file of that name is kept, and the message says so.
+    let other = plateau_in(
+        dir.path(),
+        &["schema", "--analysis", "-o", "study.schema.json"],
+    );
+    assert_ne!(other.status.code(), Some(0));
+    let stderr = String::from_utf8_lossy(&other.stderr);
+    assert!(
+        stderr.contains("failed to write") && stderr.contains("is kept"),
+        "{stderr}"
+    );
+    assert_eq!(
+        std::fs::read_to_string(dir.path().join("study.schema.json")).unwrap(),
+        written
+    );
+    let analysis = plateau_in(dir.path(), &["schema", "--analysis"]);
+    assert_eq!(
+        String::from_utf8_lossy(&analysis.stdout),
+        std::fs::read_to_string(crate_root().join("schemas/analysis.schema.json")).unwrap()
+    );
+}
+
+#[test]
+fn a_new_study_names_a_schema_file_that_exists_beside_it_and_accepts_it() {
+    let dir = tempfile::tempdir().unwrap();
+    for (i, kind) in [
+        "full-factorial",
+        "fractional-factorial",
+        "plackett-burman",
+        "youden",
+        "explicit",
+    ]
+    .iter()
+    .enumerate()
+    {
+        let sub = dir.path().join(format!("s{i}"));
+        std::fs::create_dir(&sub).unwrap();
+        let out = plateau_in(&sub, &["new", "study.yaml", "--kind", kind]);
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{kind}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let text = std::fs::read_to_string(sub.join("study.yaml")).unwrap();
+        let modeline = text.lines().next().unwrap_or_default();
+        let target = modeline
+            .strip_prefix("# yaml-language-server: $schema=")
+            .unwrap_or_else(|| panic!("{kind}: no modeline in `{modeline}`"));
+        // The modeline resolves relative to the study, without a network.
+        let beside = sub.join(target);
+        assert_eq!(
+            std::fs::read_to_string(&beside).unwrap_or_default(),
+            plateau::study::schema::SCHEMA_TEXT,
+            "{kind}: {} is not the schema",
+            beside.display()
+        );
+        // And the starter is valid for that schema (`parse` checks the data against the
+        // built-in schema first) and for `plateau check`; check-jsonschema's verdicts on the
+        // starters are asserted below.
+        let data = plateau::study::load::parse(&text, "study.yaml");
+        assert!(data.is_ok(), "{kind}: {:?}", data.err());
+        let check = plateau_in(&sub, &["check", "study.yaml"]);
+        assert_eq!(
+            check.status.code(),
+            Some(0),
+            "{kind}: {}",
+            String::from_utf8_lossy(&check.stderr)
+        );
+    }
+    // A second study in the same folder leaves the schema file as it is.
+    let out = plateau_in(&dir.path().join("s0"), &["new", "second.yaml"]);
+    assert_eq!(out.status.code(), Some(0));
+    assert!(String::from_utf8_lossy(&out.stdout).contains("already holds this schema"));
+}

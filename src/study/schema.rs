@@ -16,6 +16,10 @@ use super::locate::Locator;
 /// The study-file schema as shipped in `schemas/`.
 pub const SCHEMA_TEXT: &str = include_str!("../../schemas/study.schema.json");
 
+/// The schema of the `analysis.json` document (`plateau analyze --json`), as shipped in
+/// `schemas/`; its version is the document's `schema_version`.
+pub const ANALYSIS_SCHEMA_TEXT: &str = include_str!("../../schemas/analysis.schema.json");
+
 fn schema() -> &'static Value {
     static SCHEMA: OnceLock<Value> = OnceLock::new();
     SCHEMA.get_or_init(|| serde_json::from_str(SCHEMA_TEXT).unwrap_or(Value::Null))
