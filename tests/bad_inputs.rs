@@ -482,6 +482,13 @@ fn the_schema_verdicts_are_those_of_the_committed_schema_and_studies() {
         Some(hash.as_str()),
         "schemas/study.schema.json changed: run `python3 tests/fixtures/schema/make_schema_verdicts.py` and commit tests/fixtures/schema/verdicts.json"
     );
+    // Both schemas were compiled by a second independent implementation too (ajv, strict).
+    assert!(
+        verdicts()["ajv"]
+            .as_str()
+            .is_some_and(|s| s.contains("compiles")),
+        "verdicts.json was made without --ajv"
+    );
     let mut missing = Vec::new();
     for study in ["examples", "tests/fixtures", "tests/bad_inputs"]
         .iter()

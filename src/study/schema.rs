@@ -60,7 +60,12 @@ pub fn check(instance: &Value, text: &str, file_name: &str) -> Diagnostics {
         // Indices and numeric keys look the same in a pointer; decide by the data itself.
         let path = resolve_indices(instance, path);
         let schema_path = error.schema_path().as_str().to_string();
-        let described = match rule_at(&schema_path) {
+        // A wrong type is said as such even inside a rule: the rule's title is about values.
+        let rule = match error.kind() {
+            ValidationErrorKind::Type { .. } => None,
+            _ => rule_at(&schema_path),
+        };
+        let described = match rule {
             Some(rule) => vec![(
                 ruled(error.kind(), &path, rule, error.instance(), file_name),
                 None,
@@ -485,6 +490,108 @@ mod tests {
     #[test]
     fn the_shipped_schema_compiles() {
         assert!(validator().is_some());
+    }
+
+    /// Every subschema with a `default` or `examples`, with its JSON pointer.
+    fn annotated(node: &Value, at: String, out: &mut Vec<(String, Value)>) {
+        match node {
+            Value::Object(map) => {
+                if map.contains_key("default") || map.contains_key("examples") {
+                    out.push((at.clone(), node.clone()));
+                }
+                for (k, v) in map {
+                    annotated(v, format!("{at}/{k}"), out);
+                }
+            }
+            Value::Array(items) => {
+                for (i, v) in items.iter().enumerate() {
+                    annotated(v, format!("{at}/{i}"), out);
+                }
+            }
+            _ => {}
+        }
+    }
+
+    #[test]
+    fn every_default_and_example_passes_its_own_subschema() {
+        // An editor inserts these values on completion; the schema must not then reject them.
+        let root = schema();
+        let mut nodes = Vec::new();
+        annotated(root, String::new(), &mut nodes);
+        assert!(
+            nodes.len() >= 20,
+            "only {} annotated subschemas",
+            nodes.len()
+        );
+        for (at, node) in nodes {
+            let mut sub = node.clone();
+            sub["$defs"] = root["$defs"].clone();
+            let v = jsonschema::validator_for(&sub).unwrap();
+            let values = node
+                .get("examples")
+                .and_then(Value::as_array)
+                .cloned()
+                .unwrap_or_default()
+                .into_iter()
+                .chain(node.get("default").cloned());
+            for value in values {
+                assert!(v.is_valid(&value), "{at}: {value} breaks its own subschema");
+            }
+        }
+    }
+
+    #[test]
+    fn every_property_has_a_description() {
+        fn walk(node: &Value, at: &str, out: &mut Vec<String>) {
+            match node {
+                Value::Object(map) => {
+                    if let Some(Value::Object(props)) = map.get("properties") {
+                        for (k, v) in props {
+                            if v.get("description").is_none() && v.get("title").is_none() {
+                                out.push(format!("{at}/properties/{k}"));
+                            }
+                        }
+                    }
+                    for (k, v) in map {
+                        walk(v, &format!("{at}/{k}"), out);
+                    }
+                }
+                Value::Array(items) => {
+                    for (i, v) in items.iter().enumerate() {
+                        walk(v, &format!("{at}/{i}"), out);
+                    }
+                }
+                _ => {}
+            }
+        }
+        for text in [SCHEMA_TEXT, ANALYSIS_SCHEMA_TEXT] {
+            let mut missing = Vec::new();
+            walk(&serde_json::from_str(text).unwrap(), "", &mut missing);
+            assert!(
+                missing.is_empty(),
+                "properties without a description: {missing:?}"
+            );
+        }
+    }
+
+    #[test]
+    fn patterns_use_no_syntax_outside_ecma_262() {
+        // Inline flags such as (?i), possessive or atomic groups and \A/\z anchors are Rust or
+        // PCRE syntax that ECMA-262 validators (ajv, check-jsonschema) refuse (ECMA-262 §22.2).
+        for bad in [
+            "(?i)", "(?s)", "(?m)", "(?x)", "(?>", "\\A", "\\z", "\\Z", "*+", "++",
+        ] {
+            assert!(!SCHEMA_TEXT.contains(bad), "the schema uses `{bad}`");
+        }
+    }
+
+    #[test]
+    fn both_schemas_carry_a_versioned_id() {
+        for text in [SCHEMA_TEXT, ANALYSIS_SCHEMA_TEXT] {
+            let s: Value = serde_json::from_str(text).unwrap();
+            let id = s["$id"].as_str().unwrap_or_default();
+            assert!(id.contains("/schemas/1/"), "{id}");
+        }
     }
 
     #[test]
