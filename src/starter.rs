@@ -11,11 +11,10 @@ pub const SCHEMA_FILE: &str = "study.schema.json";
 
 /// Where the modeline of a starter study at `study` points: [`SCHEMA_FILE`] in its folder.
 pub fn schema_beside(study: &Path) -> PathBuf {
-    study
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .unwrap_or(Path::new("."))
-        .join(SCHEMA_FILE)
+    match study.parent().filter(|p| !p.as_os_str().is_empty()) {
+        Some(dir) => dir.join(SCHEMA_FILE),
+        None => PathBuf::from(SCHEMA_FILE),
+    }
 }
 
 /// What [`write_schema`] did.
@@ -113,7 +112,7 @@ pub fn text(kind: DesignKind, factors: usize) -> String {
     out.push_str(
         "# A starter robustness study written by `plateau new`. Replace every placeholder.\n",
     );
-    out.push_str(&format!("# Editors validate against {SCHEMA_FILE} beside this file, written with it (`plateau schema -o {SCHEMA_FILE}` writes it again).\n"));
+    out.push_str(&format!("# Editors validate against {SCHEMA_FILE} beside this file (`plateau schema -o {SCHEMA_FILE}` writes it when missing).\n"));
     out.push_str("schema: 1\n");
     out.push_str("study:\n  id: RS-0000-000          # your protocol number\n");
     out.push_str("  title: Robustness of the assay method (placeholder)\n");
@@ -170,4 +169,30 @@ pub fn text(kind: DesignKind, factors: usize) -> String {
     );
     out.push_str("#   file: results.csv\n");
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_schema_goes_beside_the_study() {
+        assert_eq!(
+            schema_beside(Path::new("study.yaml")),
+            PathBuf::from(SCHEMA_FILE)
+        );
+        assert_eq!(
+            schema_beside(Path::new("lab/s1/study.yaml")),
+            Path::new("lab/s1").join(SCHEMA_FILE)
+        );
+    }
+
+    #[test]
+    fn the_modeline_names_the_schema_file_written_beside_the_study() {
+        let text = text(DesignKind::FullFactorial, 3);
+        assert_eq!(
+            text.lines().next(),
+            Some(format!("# yaml-language-server: $schema={SCHEMA_FILE}").as_str())
+        );
+    }
 }
