@@ -67,7 +67,13 @@ pub fn check(instance: &Value, text: &str, file_name: &str) -> Diagnostics {
         };
         let described = match rule {
             Some(rule) => vec![(
-                ruled(error.kind(), &path, rule, error.instance(), file_name),
+                ruled(
+                    error.kind(),
+                    &path,
+                    in_context(rule, instance, &path),
+                    error.instance(),
+                    file_name,
+                ),
                 None,
             )],
             None => describe(
@@ -96,8 +102,41 @@ pub fn check(instance: &Value, text: &str, file_name: &str) -> Diagnostics {
 /// A rule of the schema: a subschema with a `title` stating the fault it catches and a
 /// `description` saying what would be valid (the convention of the schema's `$comment`).
 struct Rule {
-    title: &'static str,
+    title: String,
     description: &'static str,
+}
+
+/// A rule whose title speaks of "this design kind" or "this method" names the one the study
+/// gives (a schema cannot print a value, the message can): the design's `kind`, or the `method`
+/// of the significance criterion the field belongs to.
+fn in_context(rule: Rule, document: &Value, path: &FieldPath) -> Rule {
+    let mut node = document;
+    let mut parent = None;
+    for segment in &path.0 {
+        parent = Some(node);
+        node = match segment {
+            Segment::Key(k) => node.get(k.as_str()),
+            Segment::Index(i) => node.get(*i),
+        }
+        .unwrap_or(&Value::Null);
+    }
+    let named = if rule.title.contains("this design kind") {
+        document
+            .pointer("/design/kind")
+            .and_then(Value::as_str)
+            .map(|k| rule.title.replace("this design kind", &format!("kind {k}")))
+    } else if rule.title.contains("this method") {
+        parent
+            .and_then(|p| p.get("method"))
+            .and_then(Value::as_str)
+            .map(|m| rule.title.replace("this method", &format!("method {m}")))
+    } else {
+        None
+    };
+    match named {
+        Some(title) => Rule { title, ..rule },
+        None => rule,
+    }
 }
 
 /// The rule holding the failed keyword at `schema_path`, when that subschema is one.
@@ -108,7 +147,7 @@ fn rule_at(schema_path: &str) -> Option<Rule> {
     }
     let node = node_at(holder)?;
     Some(Rule {
-        title: node.get("title")?.as_str()?,
+        title: node.get("title")?.as_str()?.to_string(),
         description: node
             .get("description")
             .and_then(Value::as_str)
@@ -592,6 +631,25 @@ mod tests {
             let id = s["$id"].as_str().unwrap_or_default();
             assert!(id.contains("/schemas/1/"), "{id}");
         }
+    }
+
+    #[test]
+    fn a_rule_message_names_the_kind_and_method_of_the_study() {
+        let text = "design: {kind: full-factorial, dummies: 2}\nacceptance:\n  - {response: a, significance: {method: lenth, s: 1}}\n";
+        let doc = serde_json::json!({
+            "design": {"kind": "full-factorial", "dummies": 2},
+            "acceptance": [{"response": "a", "significance": {"method": "lenth", "s": 1}}]
+        });
+        let shown = check(&doc, text, "s.yaml").to_string();
+        assert!(
+            shown.contains("`dummies` does not apply to kind full-factorial"),
+            "{shown}"
+        );
+        assert!(
+            shown.contains("`s` does not apply to method lenth"),
+            "{shown}"
+        );
+        assert!(!shown.contains("this design kind") && !shown.contains("this method"));
     }
 
     #[test]
