@@ -422,6 +422,7 @@ const SCHEMA_EXPRESSIBLE: &[&str] = &[
     "results-file-and-runs",
     "results-neither",
     "schema-version-2",
+    "text-control-character",
     "unknown-factor-field",
     "unknown-top-level-field",
     "wrong-type-delta",

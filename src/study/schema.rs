@@ -430,6 +430,20 @@ fn describe(
             "the text is too long".to_string(),
             Some(format!("expected at most {limit} characters")),
         ),
+        ValidationErrorKind::Pattern { pattern } if pattern.contains("\\u0000-") => {
+            // Free text refuses control characters: said as `check` says any unprintable one.
+            let ch = instance
+                .as_str()
+                .and_then(|s| {
+                    s.chars()
+                        .find(|c| c.is_control() && !"\t\n\r\u{b}\u{c}\u{85}".contains(*c))
+                })
+                .map_or(0, u32::from);
+            plain(
+                format!("the character U+{ch:04X} (a control character) cannot be printed in the report"),
+                Some("expected characters the report fonts have: Latin, Greek, Cyrillic, Hebrew, Armenian, punctuation, units and mathematical signs; write the text without it".into()),
+            )
+        }
         ValidationErrorKind::Pattern { pattern } if is_date_pattern(pattern) => plain(
             format!(
                 "`{}` is not a calendar date",
