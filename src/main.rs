@@ -243,8 +243,16 @@ enum Command {
         #[command(subcommand)]
         action: TemplatesAction,
     },
-    /// Print the JSON Schema of the study file.
-    Schema,
+    /// Print the JSON Schema of the study file (or of analysis.json), or write it to a file.
+    Schema {
+        /// Write the schema to FILE (an existing file is left as it is; it must already hold
+        /// this schema).
+        #[arg(short, long, value_name = "FILE")]
+        output: Option<PathBuf>,
+        /// The schema of `plateau analyze --json` (analysis.json) instead of the study file's.
+        #[arg(long)]
+        analysis: bool,
+    },
     /// Print a shell completion script (bash, zsh, fish, elvish or powershell).
     Completions {
         /// The shell.
@@ -518,6 +526,16 @@ fn run(command: Command) -> Result<(), Failure> {
                 file.display(),
                 file.display()
             );
+            // The modeline names the schema beside the study; write it so that it resolves.
+            let schema = plateau::starter::schema_beside(&file);
+            match plateau::starter::write_schema(&schema, plateau::study::schema::SCHEMA_TEXT) {
+                Ok(how) => println!(
+                    "ok  {} {} (editors validate against it)",
+                    schema.display(),
+                    how
+                ),
+                Err(e) => eprintln!("warning: {e}"),
+            }
             Ok(())
         }
         Command::Power {
@@ -935,8 +953,20 @@ fn run(command: Command) -> Result<(), Failure> {
             }
             Ok(())
         }
-        Command::Schema => {
-            print!("{}", plateau::study::schema::SCHEMA_TEXT);
+        Command::Schema { output, analysis } => {
+            let text = if analysis {
+                plateau::study::schema::ANALYSIS_SCHEMA_TEXT
+            } else {
+                plateau::study::schema::SCHEMA_TEXT
+            };
+            match output {
+                None => print!("{text}"),
+                Some(path) => {
+                    let how =
+                        plateau::starter::write_schema(&path, text).map_err(Failure::Other)?;
+                    println!("ok  {} {}", path.display(), how);
+                }
+            }
             Ok(())
         }
     }

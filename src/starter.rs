@@ -1,7 +1,69 @@
 //! `plateau new`: a commented starter study that `plateau check` accepts as it is, so a new user
 //! edits a valid file instead of starting from a blank page.
 
+use std::path::{Path, PathBuf};
+
 use crate::study::DesignKind;
+
+/// File name of the study schema that the starter's modeline names, beside the study, so that
+/// an editor finds it without a network.
+pub const SCHEMA_FILE: &str = "study.schema.json";
+
+/// Where the modeline of a starter study at `study` points: [`SCHEMA_FILE`] in its folder.
+pub fn schema_beside(study: &Path) -> PathBuf {
+    match study.parent().filter(|p| !p.as_os_str().is_empty()) {
+        Some(dir) => dir.join(SCHEMA_FILE),
+        None => PathBuf::from(SCHEMA_FILE),
+    }
+}
+
+/// What [`write_schema`] did.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SchemaWrite {
+    /// The file was created.
+    Written,
+    /// The file already held exactly this schema (line ends aside) and was left alone.
+    AlreadyCurrent,
+}
+
+impl std::fmt::Display for SchemaWrite {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            SchemaWrite::Written => "written",
+            SchemaWrite::AlreadyCurrent => "already holds this schema",
+        })
+    }
+}
+
+/// Writes a schema file without ever replacing a different one: a schema someone edited, or
+/// one of another plateau version that other studies still name, is kept, and the message says
+/// how to proceed. The file is created exclusively, so two runs cannot interleave.
+pub fn write_schema(path: &Path, text: &str) -> Result<SchemaWrite, String> {
+    use std::io::Write;
+    match std::fs::OpenOptions::new()
+        .write(true)
+        .create_new(true)
+        .open(path)
+    {
+        Ok(mut f) => f
+            .write_all(text.as_bytes())
+            .map(|()| SchemaWrite::Written)
+            .map_err(|e| format!("failed to write {} ({e})", path.display())),
+        Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => {
+            let existing = std::fs::read_to_string(path)
+                .map_err(|e| format!("failed to read {} ({e})", path.display()))?;
+            if existing.replace("\r\n", "\n") == text.replace("\r\n", "\n") {
+                Ok(SchemaWrite::AlreadyCurrent)
+            } else {
+                Err(format!(
+                    "failed to write {} (a different file of that name exists and is kept; expected a new file name, or remove the old file first)",
+                    path.display()
+                ))
+            }
+        }
+        Err(e) => Err(format!("failed to write {} ({e})", path.display())),
+    }
+}
 
 /// Typical HPLC operating parameters used as placeholders (ranges: common practice, see
 /// METHODS.md "Typical ranges"): id, name, unit, nominal, delta.
@@ -46,11 +108,11 @@ pub fn max_factors(kind: DesignKind) -> usize {
 /// The starter study text.
 pub fn text(kind: DesignKind, factors: usize) -> String {
     let mut out = String::new();
-    out.push_str("# yaml-language-server: $schema=study.schema.json\n");
+    out.push_str(&format!("# yaml-language-server: $schema={SCHEMA_FILE}\n"));
     out.push_str(
         "# A starter robustness study written by `plateau new`. Replace every placeholder.\n",
     );
-    out.push_str("# Editors validate against the schema: write it with `plateau schema > study.schema.json`.\n");
+    out.push_str(&format!("# Editors validate against {SCHEMA_FILE} beside this file (`plateau schema -o {SCHEMA_FILE}` writes it when missing).\n"));
     out.push_str("schema: 1\n");
     out.push_str("study:\n  id: RS-0000-000          # your protocol number\n");
     out.push_str("  title: Robustness of the assay method (placeholder)\n");
@@ -107,4 +169,30 @@ pub fn text(kind: DesignKind, factors: usize) -> String {
     );
     out.push_str("#   file: results.csv\n");
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_schema_goes_beside_the_study() {
+        assert_eq!(
+            schema_beside(Path::new("study.yaml")),
+            PathBuf::from(SCHEMA_FILE)
+        );
+        assert_eq!(
+            schema_beside(Path::new("lab/s1/study.yaml")),
+            Path::new("lab/s1").join(SCHEMA_FILE)
+        );
+    }
+
+    #[test]
+    fn the_modeline_names_the_schema_file_written_beside_the_study() {
+        let text = text(DesignKind::FullFactorial, 3);
+        assert_eq!(
+            text.lines().next(),
+            Some(format!("# yaml-language-server: $schema={SCHEMA_FILE}").as_str())
+        );
+    }
 }

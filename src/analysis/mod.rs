@@ -32,6 +32,9 @@ use crate::study::{Diagnostics, LimitUnit, Study};
 /// The whole analysis of one study (the `analysis.json` document).
 #[derive(Debug, Clone, Serialize)]
 pub struct Analysis {
+    /// Version of this document's layout (schemas/analysis.schema.json); raised when a field
+    /// changes meaning or is removed, so that scripts reading analysis.json can tell.
+    pub schema_version: u32,
     /// Which study this is.
     pub study: StudySummary,
     /// What the design was.
@@ -343,6 +346,7 @@ pub fn analyse(
         .map(|f| f.id.clone())
         .collect();
     Ok(Analysis {
+        schema_version: 1,
         study: StudySummary {
             id: study.info.id.clone(),
             title: study.info.title.clone(),
