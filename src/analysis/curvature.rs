@@ -23,8 +23,6 @@ pub struct Curvature {
     pub s: f64,
     /// Its degrees of freedom (n_C − 1 when taken from the centre points).
     pub df: f64,
-    /// Whether s came from the centre points (`false`: supplied by the caller).
-    pub s_from_centre_points: bool,
     /// SE(ȳ_F − ȳ_C) = s·√(1/n_F + 1/n_C).
     pub se: f64,
     /// t = (ȳ_F − ȳ_C)/SE; `None` when s = 0.
@@ -37,51 +35,6 @@ pub struct Curvature {
     pub f: Option<f64>,
     /// Why t and p are missing, if they are.
     pub note: Option<String>,
-}
-
-/// Curvature test with pure error from the centre points:
-/// ȳ_F − ȳ_C, s² the variance of the centre values with n_C − 1 df,
-/// SE = s·√(1/n_F + 1/n_C), t = (ȳ_F − ȳ_C)/SE, two-sided p on n_C − 1 df.
-/// Equivalently SS_curvature = n_F n_C (ȳ_F − ȳ_C)²/(n_F + n_C) and F = SS/s² on 1 and
-/// n_C − 1 df (Montgomery, Design and Analysis of Experiments, ch. 6, "Addition of center
-/// points to the 2^k design").
-///
-/// `factorial` holds one value per factorial run (the run mean if a run has several
-/// determinations); n_F is their count. Needs n_F ≥ 1 and n_C ≥ 2.
-pub fn curvature(factorial: &[f64], centre: &[f64]) -> Result<Curvature, StatError> {
-    check(factorial, "factorial values", 1)?;
-    check(centre, "centre-point values", 2)?;
-    let yc = mean(centre);
-    let nc = centre.len();
-    let s = (centre.iter().map(|v| (v - yc) * (v - yc)).sum::<f64>() / (nc - 1) as f64).sqrt();
-    build(factorial, centre, s, (nc - 1) as f64, true)
-}
-
-/// Curvature test with an external pure-error standard deviation `s` on `df` degrees of
-/// freedom (e.g. from replicated factorial runs or the method's repeatability); otherwise
-/// as [`curvature`]. Needs n_F ≥ 1 and n_C ≥ 1.
-pub fn curvature_with_error(
-    factorial: &[f64],
-    centre: &[f64],
-    s: f64,
-    df: f64,
-) -> Result<Curvature, StatError> {
-    check(factorial, "factorial values", 1)?;
-    check(centre, "centre-point values", 1)?;
-    if !s.is_finite() || s < 0.0 {
-        return Err(StatError::OutOfRange {
-            what: "the pure-error standard deviation",
-            expected: "a finite number of 0 or more",
-            value: s,
-        });
-    }
-    if df.is_nan() || df <= 0.0 {
-        return Err(StatError::DegreesOfFreedom {
-            what: "the pure-error standard deviation",
-            df,
-        });
-    }
-    build(factorial, centre, s, df, false)
 }
 
 /// Curvature from the fitted model: the model's prediction at the nominal setting ŷ₀ (from
@@ -144,53 +97,6 @@ pub fn from_model(
         difference: d,
         s,
         df,
-        s_from_centre_points: false,
-        se,
-        t,
-        p,
-        ss_curvature: ss,
-        f,
-        note,
-    })
-}
-
-fn build(
-    factorial: &[f64],
-    centre: &[f64],
-    s: f64,
-    df: f64,
-    from_centre: bool,
-) -> Result<Curvature, StatError> {
-    let (nf, nc) = (factorial.len() as f64, centre.len() as f64);
-    let (yf, yc) = (mean(factorial), mean(centre));
-    let d = yf - yc;
-    let se = s * (1.0 / nf + 1.0 / nc).sqrt();
-    let ss = nf * nc * d * d / (nf + nc);
-    let (t, p, f, note) = if s > 0.0 {
-        let t = d / se;
-        (
-            Some(t),
-            Some(t_sf_two_sided(t, df)?),
-            Some(ss / (s * s)),
-            None,
-        )
-    } else {
-        (
-            None,
-            None,
-            None,
-            Some("pure error is zero: the curvature cannot be tested".to_string()),
-        )
-    };
-    Ok(Curvature {
-        n_factorial: factorial.len(),
-        n_centre: centre.len(),
-        factorial_mean: yf,
-        centre_mean: yc,
-        difference: d,
-        s,
-        df,
-        s_from_centre_points: from_centre,
         se,
         t,
         p,
@@ -243,8 +149,27 @@ mod tests {
         (got - want).abs() <= 1e-10 * want.abs().max(1e-3)
     }
 
+    /// The orthogonal, all-numeric case: the model's prediction at the centre is ȳ_F with
+    /// x₀ᵀ(XᵀX)⁻¹x₀ = 1/n_F, and the centre points give s on n_C − 1 df.
+    fn centre_point_test(factorial: &[f64], centre: &[f64]) -> Curvature {
+        let nf = factorial.len();
+        let yc = mean(centre);
+        let nc = centre.len() as f64;
+        let s = (centre.iter().map(|v| (v - yc).powi(2)).sum::<f64>() / (nc - 1.0)).sqrt();
+        from_model(
+            mean(factorial),
+            1.0 / nf as f64,
+            nf,
+            centre,
+            nc,
+            s,
+            nc - 1.0,
+        )
+        .unwrap()
+    }
+
     fn check_case(c: &Value) -> Curvature {
-        let r = curvature(&vals(&c["factorial"]), &vals(&c["centre"])).unwrap();
+        let r = centre_point_test(&vals(&c["factorial"]), &vals(&c["centre"]));
         assert!(close(r.difference, c["diff"].as_f64().unwrap()));
         assert!(close(r.s, c["s"].as_f64().unwrap()));
         assert!(close(r.se, c["se"].as_f64().unwrap()));
@@ -282,25 +207,24 @@ mod tests {
         let f = fx();
         let c = &f["montgomery_runger_s14_2"];
         let e = &f["external_error"];
-        let r =
-            curvature_with_error(&vals(&c["factorial"]), &vals(&c["centre"]), 0.25, 12.0).unwrap();
-        assert!(!r.s_from_centre_points);
+        let fac = vals(&c["factorial"]);
+        let cen = vals(&c["centre"]);
+        let r = from_model(mean(&fac), 0.25, 4, &cen, cen.len() as f64, 0.25, 12.0).unwrap();
         assert!(close(r.se, e["se"].as_f64().unwrap()));
         assert!(close(r.p.unwrap(), e["p"].as_f64().unwrap()));
     }
 
     #[test]
     fn identical_centre_points_cannot_test() {
-        let r = curvature(&[1.0, 2.0, 3.0, 4.0], &[2.0, 2.0, 2.0]).unwrap();
+        let r = centre_point_test(&[1.0, 2.0, 3.0, 4.0], &[2.0, 2.0, 2.0]);
         assert_eq!(r.t, None);
         assert!(r.note.is_some());
     }
 
     #[test]
-    fn one_centre_point_is_too_few_for_internal_error() {
-        let err = curvature(&[1.0, 2.0], &[1.5]).unwrap_err();
-        assert!(matches!(err, StatError::TooFew { need: 2, .. }));
-        assert!(curvature(&[], &[1.0, 2.0]).is_err());
-        assert!(curvature(&[1.0], &[1.0, f64::NAN]).is_err());
+    fn a_prediction_that_is_not_finite_is_refused() {
+        assert!(from_model(f64::NAN, 0.25, 4, &[1.0, 2.0], 2.0, 0.1, 1.0).is_err());
+        assert!(from_model(1.0, 0.25, 4, &[], 0.0, 0.1, 1.0).is_err());
+        assert!(from_model(1.0, 0.25, 4, &[1.0, f64::NAN], 2.0, 0.1, 1.0).is_err());
     }
 }
