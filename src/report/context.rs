@@ -636,28 +636,7 @@ pub fn nominal_text(f: &Factor) -> String {
 
 /// One sentence on what the study covers.
 fn scope_text(evaluated: &Evaluated) -> String {
-    let study = &evaluated.study;
-    let factors: Vec<String> = study.factors.iter().map(|f| f.name.clone()).collect();
-    let responses: Vec<String> = study.responses.iter().map(|r| r.name.clone()).collect();
-    format!(
-        "The study varied {} {} of method {} ({}) around their nominal settings and recorded {} {} ({}) in {} runs.",
-        study.factors.len(),
-        if study.factors.len() == 1 {
-            "operating parameter"
-        } else {
-            "operating parameters"
-        },
-        study.info.method,
-        and_list(&factors),
-        study.responses.len(),
-        if study.responses.len() == 1 {
-            "response"
-        } else {
-            "responses"
-        },
-        and_list(&responses),
-        evaluated.design.runs.len()
-    )
+    super::wording::scope_sentence(&evaluated.study, evaluated.design.runs.len(), false)
 }
 
 fn responses_text(evaluated: &Evaluated, figures: &Figures) -> Vec<ResponseText> {

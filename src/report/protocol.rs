@@ -454,8 +454,6 @@ pub fn build(study: &Study, design: &Design, lock: &Lock) -> ProtocolContext {
         .lock
         .as_ref()
         .is_none_or(|l| l.planning_sha256 == lock.planning_sha256);
-    let factors: Vec<String> = study.factors.iter().map(|f| f.name.clone()).collect();
-    let responses: Vec<String> = study.responses.iter().map(|r| r.name.clone()).collect();
     ProtocolContext {
         study: context::StudyText {
             id: study.info.id.clone(),
@@ -471,25 +469,7 @@ pub fn build(study: &Study, design: &Design, lock: &Lock) -> ProtocolContext {
         approved: same_plan
             .then(|| study.protocol.as_ref().and_then(|p| p.approved.clone()))
             .flatten(),
-        scope: format!(
-            "The study will vary {} operating {} of method {} ({}) around their nominal settings and record {} {} ({}) in {} runs.",
-            study.factors.len(),
-            if study.factors.len() == 1 {
-                "parameter"
-            } else {
-                "parameters"
-            },
-            study.info.method,
-            and_list(&factors),
-            study.responses.len(),
-            if study.responses.len() == 1 {
-                "response"
-            } else {
-                "responses"
-            },
-            and_list(&responses),
-            design.runs.len()
-        ),
+        scope: super::wording::scope_sentence(study, design.runs.len(), true),
         nominal_conditions: study
             .factors
             .iter()

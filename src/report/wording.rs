@@ -247,6 +247,27 @@ pub fn and_list(items: &[String]) -> String {
     }
 }
 
+/// The scope of a study in one sentence: factors, responses and runs, as planned (protocol)
+/// or as done (report).
+pub fn scope_sentence(study: &Study, runs: usize, planned: bool) -> String {
+    let factors: Vec<String> = study.factors.iter().map(|f| f.name.clone()).collect();
+    let responses: Vec<String> = study.responses.iter().map(|r| r.name.clone()).collect();
+    let plural = |n: usize, one: &str, many: &str| if n == 1 { one } else { many }.to_string();
+    format!(
+        "The study {} {} operating {} of method {} ({}) around their nominal settings and {} {} {} ({}) in {} runs.",
+        if planned { "will vary" } else { "varied" },
+        study.factors.len(),
+        plural(study.factors.len(), "parameter", "parameters"),
+        study.info.method,
+        and_list(&factors),
+        if planned { "record" } else { "recorded" },
+        study.responses.len(),
+        plural(study.responses.len(), "response", "responses"),
+        and_list(&responses),
+        runs
+    )
+}
+
 /// A typed analysis note in words, for the judging section.
 pub fn note_text(study: &Study, response: &ResponseAnalysis, note: &Note) -> String {
     let unit = response
