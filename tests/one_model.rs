@@ -24,6 +24,11 @@ study:
   date: 2026-11-18
 ";
 
+/// The plain full factorial of [`two_factor`], its one assay response, and four run values.
+const FULL: &str = "  kind: full-factorial";
+const ASSAY: &str = "  - { id: assay, name: Assay, percent-of: mean }";
+const RUNS: &str = "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 99.4}\n    - {run: 3, assay: 99.2}\n    - {run: 4, assay: 99.6}";
+
 fn two_factor(design: &str, responses: &str, acceptance: &str, runs: &str) -> String {
     format!(
         "{HEAD}factors:
@@ -48,8 +53,8 @@ fn a_zero_reference_leaves_percent_effects_undefined_instead_of_failing() {
     let path = study(
         &dir,
         &two_factor(
-            "  kind: full-factorial",
-            "  - { id: assay, name: Assay, percent-of: mean }",
+            FULL,
+            ASSAY,
             "acceptance:\n  - { response: assay, effect-limit: 2.0 }",
             "    - {run: 1, assay: 1.0}\n    - {run: 2, assay: -1.5}\n    - {run: 3, assay: 0.5}\n    - {run: 4, assay: 0.0}",
         ),
@@ -76,7 +81,7 @@ fn a_response_without_rules_never_blocks_another() {
     let path = study(
         &dir,
         &two_factor(
-            "  kind: full-factorial",
+            FULL,
             "  - { id: assay, name: Assay, percent-of: mean }\n  - { id: blank, name: Blank signal, percent-of: mean }",
             "acceptance:\n  - { response: assay, effect-limit: 2.0 }",
             "    - {run: 1, assay: 99.0, blank: 1.0}\n    - {run: 2, assay: 99.4, blank: -1.0}\n    - {run: 3, assay: 99.2, blank: -1.0}\n    - {run: 4, assay: 99.6, blank: 1.0}",
@@ -94,7 +99,7 @@ fn a_negative_reference_keeps_the_sign_of_each_effect() {
     let path = study(
         &dir,
         &two_factor(
-            "  kind: full-factorial",
+            FULL,
             "  - { id: shift, name: Retention shift, unit: s, percent-of: mean }",
             "",
             "    - {run: 1, shift: -10.0}\n    - {run: 2, shift: -9.0}\n    - {run: 3, shift: -10.0}\n    - {run: 4, shift: -9.0}",
@@ -114,10 +119,10 @@ fn lenth_refuses_fewer_than_seven_contrasts() {
     let path = study(
         &dir,
         &two_factor(
-            "  kind: full-factorial",
-            "  - { id: assay, name: Assay, percent-of: mean }",
+            FULL,
+            ASSAY,
             "acceptance:\n  - { response: assay, significance: { method: lenth } }",
-            "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 99.4}\n    - {run: 3, assay: 99.2}\n    - {run: 4, assay: 99.6}",
+            RUNS,
         ),
     );
     let run = plateau(&["analyze", "--json"]).arg_path(&path).code(1);
@@ -139,10 +144,10 @@ fn a_precision_rule_with_less_than_one_degree_of_freedom_is_refused() {
     let path = study(
         &dir,
         &two_factor(
-            "  kind: full-factorial",
-            "  - { id: assay, name: Assay, percent-of: mean }",
+            FULL,
+            ASSAY,
             "acceptance:\n  - { response: assay, significance: { method: precision, s: 0.3, df: 0.5, source: validation report } }",
-            "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 99.4}\n    - {run: 3, assay: 99.2}\n    - {run: 4, assay: 99.6}",
+            RUNS,
         ),
     );
     let run = plateau(&["check"]).arg_path(&path).code(1);
@@ -155,8 +160,8 @@ fn a_precision_rule_takes_the_results_determinations_and_refuses_another_number(
     let runs = "    - {run: 1, assay: [99.0, 99.1]}\n    - {run: 2, assay: [99.4, 99.3]}\n    - {run: 3, assay: [99.2, 99.2]}\n    - {run: 4, assay: [99.6, 99.5]}";
     let with = |n: &str| {
         two_factor(
-            "  kind: full-factorial",
-            "  - { id: assay, name: Assay, percent-of: mean }",
+            FULL,
+            ASSAY,
             &format!("acceptance:\n  - {{ response: assay, significance: {{ method: precision, s: 0.4, df: 12, source: validation report{n} }} }}"),
             runs,
         )
@@ -217,8 +222,8 @@ fn an_operating_range_never_extends_beyond_the_tested_levels() {
     // which is cut back to 33 at the low end.
     let dir = tempfile::tempdir().unwrap();
     let body = two_factor(
-        "  kind: full-factorial",
-        "  - { id: assay, name: Assay, percent-of: mean }",
+        FULL,
+        ASSAY,
         "acceptance:\n  - { response: assay, effect-limit: 1.5, unit: absolute, basis: lab rule }",
         "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 101.0}\n    - {run: 3, assay: 99.0}\n    - {run: 4, assay: 101.0}",
     )
@@ -263,10 +268,10 @@ fn check_warns_when_the_design_cannot_detect_the_limit() {
     // 2² with s = 2 (known): SE(E) = 2 and a limit of 1.0 is detected with about 7 % power.
     let dir = tempfile::tempdir().unwrap();
     let body = two_factor(
-        "  kind: full-factorial",
+        FULL,
         "  - { id: assay, name: Assay, unit: \"%\", percent-of: mean, planning: { sd: 2.0 } }",
         "acceptance:\n  - { response: assay, effect-limit: 1.0, unit: absolute, basis: lab rule }",
-        "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 99.4}\n    - {run: 3, assay: 99.2}\n    - {run: 4, assay: 99.6}",
+        RUNS,
     );
     let path = study(&dir, &body);
     let run = plateau(&["check"]).arg_path(&path).ok();
@@ -373,10 +378,10 @@ fn follow_up_without_an_unresolved_chain_asks_for_a_term() {
     let path = study(
         &dir,
         &two_factor(
-            "  kind: full-factorial",
-            "  - { id: assay, name: Assay, percent-of: mean }",
+            FULL,
+            ASSAY,
             "acceptance:\n  - { response: assay, effect-limit: 2.0 }",
-            "    - {run: 1, assay: 99.0}\n    - {run: 2, assay: 99.4}\n    - {run: 3, assay: 99.2}\n    - {run: 4, assay: 99.6}",
+            RUNS,
         ),
     );
     let out = dir.path().join("f.yaml");
