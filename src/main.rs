@@ -1136,7 +1136,12 @@ fn write_new_study(output: &std::path::Path, text: &str) -> Result<(), Failure> 
         .filter(|p| !p.as_os_str().is_empty())
         .unwrap_or(std::path::Path::new("."));
     let staged = dir.join(format!(".plateau-follow-up-{}.yaml", std::process::id()));
-    std::fs::write(&staged, text)
+    // create_new: a file of that name (however unlikely) is never overwritten.
+    std::fs::OpenOptions::new()
+        .write(true)
+        .create_new(true)
+        .open(&staged)
+        .and_then(|mut f| std::io::Write::write_all(&mut f, text.as_bytes()))
         .map_err(|e| Failure::Other(format!("failed to write {} ({e})", staged.display())))?;
     let planned = pipeline::plan(&staged);
     let linked = planned
