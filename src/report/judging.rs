@@ -185,7 +185,15 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         out.anova_notes.extend(a.note.clone());
         out.anova_notes.extend(a.warnings.iter().cloned());
     }
-    if let Some(c) = &r.curvature {
+    if let Some(c) = r.curvature.as_ref().filter(|c| c.t.is_none()) {
+        // Without a usable error there is no test to print, only the difference and why.
+        out.curvature = Some(format!(
+            "Curvature: the model's prediction at the nominal setting minus the mean of the {} nominal runs = {}{unit}; {}.",
+            c.n_centre,
+            fixed(c.difference, d),
+            c.note.as_deref().unwrap_or("it cannot be tested")
+        ));
+    } else if let Some(c) = &r.curvature {
         out.curvature = Some(format!(
             "Curvature: the model's prediction at the nominal setting minus the mean of the {} nominal runs = {}{unit}, SE = {}{unit}, t = {}, df = {}, {} (error from {}).",
             c.n_centre,
