@@ -517,7 +517,13 @@ fn effect_bars_figure(response: &ResponseAnalysis) -> Result<Figure, PlotError> 
         match limit {
             Some(l) => format!(
                 "; the dashed line is the acceptance limit of {} % and bars beyond it are drawn in red",
-                setting(l)
+                // An absolute limit turned into percent is a computed number: 4 significant
+                // figures, as every derived number (a declared percent limit prints as given).
+                setting({
+                    let scale =
+                        10f64.powi(3 - l.abs().max(f64::MIN_POSITIVE).log10().floor() as i32);
+                    (l * scale).round() / scale
+                })
             ),
             None => "; no acceptance limit was declared".to_string(),
         }
