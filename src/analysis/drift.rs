@@ -83,7 +83,8 @@ pub fn drift_check(nominal: &[(f64, f64)]) -> Result<Drift, StatError> {
         n,
         slope,
         intercept,
-        se_slope: se,
+        // Rounding noise of an exact line is no standard error.
+        se_slope: if exact { 0.0 } else { se },
         t,
         df,
         p,

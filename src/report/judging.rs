@@ -29,6 +29,9 @@ pub struct JudgingText {
     pub anova: Vec<[String; 6]>,
     /// Notes under the ANOVA table.
     pub anova_notes: Vec<String>,
+    /// The criteria that judge the effects when the ANOVA is not one of them (the table is
+    /// then shown for information, and its p-values need not match the significance column).
+    pub anova_beside: Option<String>,
     /// Curvature in words.
     pub curvature: Option<String>,
     /// Drift in words.
@@ -183,6 +186,22 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         out.anova.push(row(&a.pure_error));
         out.anova.push(row(&a.total));
         out.anova_notes.extend(a.note.clone());
+        let declared: Vec<&str> = r
+            .criteria
+            .iter()
+            .filter(|c| c.method != "effect-limit")
+            .map(|c| c.method.as_str())
+            .collect();
+        if !declared.contains(&"anova") {
+            out.anova_beside = Some(if declared.is_empty() {
+                "the study declares no statistical criterion".to_string()
+            } else {
+                format!(
+                    "the effects are judged by the declared criteria ({}), not by these F tests",
+                    declared.join(", ")
+                )
+            });
+        }
         out.anova_notes.extend(a.warnings.iter().cloned());
     }
     if let Some(c) = r.curvature.as_ref().filter(|c| c.t.is_none()) {
