@@ -6,12 +6,8 @@ use super::format::fixed;
 
 /// A planning number with four significant figures.
 pub fn number(v: f64) -> String {
-    // Four significant figures: the precision a planning estimate deserves.
-    if v == 0.0 || !v.is_finite() {
-        return fixed(v, 2);
-    }
-    let d = (3 - v.abs().log10().floor() as i32).clamp(0, 8) as u32;
-    fixed(v, d)
+    // Four significant figures: the precision a planning estimate deserves (the chapter's rule).
+    super::format::sig(v, 4)
 }
 
 /// A power as a percentage (`> 99.9 %` near 1).
