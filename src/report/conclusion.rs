@@ -455,7 +455,7 @@ fn range_proposal(
     Some(format!(
         "{} {}{unit} for {} ({why}{interactions}, assuming a linear effect; tested {} to {}{unit}{})",
         f.name,
-        super::judging::range_text(study, &c.factor, lo, hi),
+        super::judging::proposed_range_text(study, &c.factor, lo, hi),
         r.name,
         setting(low),
         setting(high),

@@ -73,7 +73,7 @@ fn unit_of(study: &Study, id: &str) -> String {
 /// A proposed operating range `low to high`: one decimal more than the factor's levels need
 /// (the chapter's number rule), rounded inward so the printed range never allows more than
 /// the computed one (32.24 to 37.76 °C beside levels 33 and 37 °C prints as 32.3 to 37.7).
-pub fn range_text(study: &Study, id: &str, low: f64, high: f64) -> String {
+pub fn proposed_range_text(study: &Study, id: &str, low: f64, high: f64) -> String {
     let decimals = study
         .factors
         .iter()
@@ -321,7 +321,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
                     },
                     match (c.low, c.high) {
                         (Some(lo), Some(hi)) => {
-                            format!("{}{u}", range_text(study, &c.factor, lo, hi))
+                            format!("{}{u}", proposed_range_text(study, &c.factor, lo, hi))
                         }
                         _ => "–".into(),
                     },
