@@ -17,7 +17,7 @@ use std::time::{Duration, Instant};
 use plateau::analysis::{self, effects};
 use plateau::design::{self, Design, TermMask};
 use plateau::pipeline;
-use plateau::study::results::{self, Measurements};
+use plateau::measurements::{self, Measurements};
 use plateau::study::{self, Study};
 
 /// Fewest and most timed repetitions of one case.
@@ -141,7 +141,7 @@ results:\n  file: results.csv\n"
 fn load_all(path: &Path) -> (Study, Design, Measurements) {
     let study = study::load(path).unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
     let design = design::plan(&study).unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
-    let data = results::read(&study, &design).unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
+    let data = measurements::read(&plateau::files::Disk, &study, &design).unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
     (study, design, data)
 }
 
@@ -261,7 +261,7 @@ fn main() {
             });
             let d = design::plan(&s).unwrap();
             bench.case("stage/read/full-factorial/2^16", 1 << 16, || {
-                results::read(&s, &d).unwrap()
+                measurements::read(&plateau::files::Disk, &s, &d).unwrap()
             });
         }
     }

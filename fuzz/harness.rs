@@ -11,37 +11,8 @@ use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
 use plateau::report;
-use plateau::study::results;
-
-/// A folder of its own per process and thread, removed when the harness returns, so parallel
-/// tests and fuzz workers never read each other's files.
-struct Scratch(PathBuf);
-
-impl Scratch {
-    fn new(tag: &str) -> Option<Self> {
-        let thread = format!("{:?}", std::thread::current().id());
-        let thread: String = thread.chars().filter(char::is_ascii_digit).collect();
-        let dir = std::env::temp_dir().join(format!(
-            "plateau-fuzz-{tag}-{}-{thread}",
-            std::process::id()
-        ));
-        let _ = std::fs::remove_dir_all(&dir);
-        std::fs::create_dir_all(&dir).ok()?;
-        Some(Self(dir))
-    }
-
-    fn write(&self, name: &str, bytes: &[u8]) -> Option<PathBuf> {
-        let path = self.0.join(name);
-        std::fs::write(&path, bytes).ok()?;
-        Some(path)
-    }
-}
-
-impl Drop for Scratch {
-    fn drop(&mut self) {
-        let _ = std::fs::remove_dir_all(&self.0);
-    }
-}
+use plateau::files::InMemory;
+use plateau::measurements;
 
 /// How far an input got through the pipeline before plateau refused it (or got to the end).
 ///
@@ -65,9 +36,9 @@ pub enum Reached {
     Rendered,
 }
 
-/// Study loader: bytes → UTF-8 → `study::load::parse`; a file that parses is then loaded from
-/// disk (the semantic checks), planned, its results read (inline, or a CSV file named relative
-/// to the scratch folder, which does not exist) and analysed.
+/// Study loader: bytes → UTF-8 → `study::load::parse`; a file that parses is then loaded (the
+/// semantic checks), planned, its results read (inline, or a CSV file it names, which does not
+/// exist) and analysed — all in memory.
 pub fn study_loader(data: &[u8]) -> Reached {
     let Ok(text) = std::str::from_utf8(data) else {
         // Non-UTF-8 bytes must be refused by the decoder with a position, never a panic.
@@ -77,19 +48,14 @@ pub fn study_loader(data: &[u8]) -> Reached {
     if plateau::study::load::parse(text, "study.yaml").is_err() {
         return Reached::Nothing;
     }
-    let Some(scratch) = Scratch::new("load") else {
-        return Reached::Parsed;
-    };
-    let Some(path) = scratch.write("study.yaml", data) else {
-        return Reached::Parsed;
-    };
-    let Ok(study) = plateau::study::load(&path) else {
+    let files = InMemory::new().with("study.yaml", data);
+    let Ok(study) = plateau::study::load::load_from(&files, Path::new("study.yaml")) else {
         return Reached::Parsed;
     };
     let Ok(design) = plateau::design::plan(&study) else {
         return Reached::Loaded;
     };
-    let Ok(values) = results::read(&study, &design) else {
+    let Ok(values) = measurements::read(&files, &study, &design) else {
         return Reached::Planned;
     };
     match plateau::analysis::analyse(&study, &design, &values) {
@@ -102,10 +68,9 @@ pub fn study_loader(data: &[u8]) -> Reached {
 /// 8 + 3 runs, responses `assay` and `resolution`, results in `results.csv`).
 const CSV_STUDY: &str = include_str!("../examples/hplc-assay/study.yaml");
 
-/// The planned HPLC study, its folder kept for the thread's life: planning it once instead of
-/// per input makes the CSV reader, not the YAML parser, the code under test.
+/// The planned HPLC study, kept for the thread's life: planning it once instead of per input
+/// makes the CSV reader, not the YAML parser, the code under test.
 struct CsvFixture {
-    scratch: Scratch,
     study: plateau::study::Study,
     design: plateau::design::Design,
 }
@@ -115,31 +80,25 @@ thread_local! {
 }
 
 fn csv_fixture() -> CsvFixture {
-    let scratch = Scratch::new("csv").unwrap_or_else(|| panic!("cannot create a scratch folder"));
-    let path = scratch
-        .write("study.yaml", CSV_STUDY.as_bytes())
-        .unwrap_or_else(|| panic!("cannot write the fixed study"));
+    let files = InMemory::new().with("study.yaml", CSV_STUDY);
     // The example study is valid; failing to plan it is a harness bug, not a finding.
-    let (study, design) = plateau::pipeline::plan(&path)
+    let (study, design) = plateau::pipeline::plan_in(&files, Path::new("study.yaml"))
         .unwrap_or_else(|e| panic!("the fixed example study no longer plans: {e:?}"));
     CsvFixture {
-        scratch,
         study,
         design,
     }
 }
 
 /// Results CSV reader: the HPLC example study with arbitrary bytes as its `results.csv`, then
-/// `results::read` and, when the file is accepted, the analysis.
+/// `measurements::read` and, when the file is accepted, the analysis.
 pub fn results_csv(data: &[u8]) -> Reached {
     CSV_FIXTURE.with(|cell| {
         let mut slot = cell.borrow_mut();
         let fixture = slot.get_or_insert_with(csv_fixture);
-        if fixture.scratch.write("results.csv", data).is_none() {
-            return Reached::Nothing;
-        }
+        let files = InMemory::new().with("results.csv", data);
         let (study, design) = (&fixture.study, &fixture.design);
-        let Ok(values) = results::read(study, design) else {
+        let Ok(values) = measurements::read(&files, study, design) else {
             return Reached::Planned;
         };
         match plateau::analysis::analyse(study, design, &values) {
@@ -155,23 +114,17 @@ pub fn results_csv(data: &[u8]) -> Reached {
 pub fn analysis(data: &[u8]) -> Reached {
     let mut input = Input::new(data);
     let spec = StudySpec::derive(&mut input);
-    let Some(scratch) = Scratch::new("analysis") else {
-        return Reached::Nothing;
-    };
+    let path = Path::new("study.yaml");
     // First the plan alone, to learn the run ids the results must name.
-    let Some(path) = scratch.write("study.yaml", spec.yaml(None).as_bytes()) else {
-        return Reached::Nothing;
-    };
-    let Ok((_, design)) = plateau::pipeline::plan(&path) else {
+    let files = InMemory::new().with(path, spec.yaml(None));
+    let Ok((_, design)) = plateau::pipeline::plan_in(&files, path) else {
         return Reached::Nothing;
     };
     let ids: Vec<String> = design.runs.iter().map(|r| r.id.0.clone()).collect();
     let values = spec.values(&mut input, ids.len());
     let text = spec.yaml(Some((&ids, &values)));
-    let Some(path) = scratch.write("study.yaml", text.as_bytes()) else {
-        return Reached::Planned;
-    };
-    let Ok(evaluated) = plateau::pipeline::evaluate(&path) else {
+    let files = InMemory::new().with(path, text);
+    let Ok(evaluated) = plateau::pipeline::evaluate_in(&files, path) else {
         return Reached::Planned;
     };
     match report::render_files(&evaluated, &report::Options::default()) {

@@ -4,7 +4,7 @@
 //! The pipeline runs in one direction, each stage a function of the one before:
 //! 1. [`study::load`] — read and check the study file (schema, types, semantic rules);
 //! 2. [`design::plan`] — the coded runs, run order and the contrasts with their alias chains;
-//! 3. [`study::results::read`] — the measured values, matched to the planned runs by id;
+//! 3. [`measurements::read`] — the measured values, matched to the planned runs by id;
 //! 4. [`analysis::analyse`] — effects, percent effects, verdicts;
 //! 5. [`report`] — the template context, the Typst source, and the typesetter call.
 #![deny(missing_docs)]
@@ -15,7 +15,9 @@ pub mod analysis;
 pub mod batch;
 pub mod design;
 pub mod diff;
+pub mod files;
 pub mod follow_up;
+pub mod measurements;
 pub mod output;
 pub mod pipeline;
 pub mod plot;

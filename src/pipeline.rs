@@ -5,7 +5,8 @@ use std::path::Path;
 use crate::analysis::{self, Analysis};
 use crate::design::{self, Design};
 use crate::protocol::deviations::{self, OrderChange, ProtocolRecord};
-use crate::study::results::{self, Measurements};
+use crate::files::{Disk, Files};
+use crate::measurements::{self, Measurements};
 use crate::study::{self, Diagnostics, Study};
 
 /// Everything known about one study after analysis.
@@ -26,18 +27,29 @@ pub struct Evaluated {
     pub protocol: Option<ProtocolRecord>,
 }
 
-/// Checks a study file up to its plan (no results needed), including its protocol lock.
+/// Checks a study file of the working folder up to its plan (no results needed), including
+/// its protocol lock.
 pub fn plan(path: &Path) -> Result<(Study, Design), Diagnostics> {
-    let mut study = study::load(path)?;
+    plan_in(&Disk, path)
+}
+
+/// [`plan`] with the study and the files it names read through `files`.
+pub fn plan_in(files: &dyn Files, path: &Path) -> Result<(Study, Design), Diagnostics> {
+    let mut study = study::load::load_from(files, path)?;
     study.lock = crate::protocol::read_lock(&study)?;
     let design = design::plan(&study)?;
     Ok((study, design))
 }
 
-/// Runs the whole analysis of a study file.
+/// Runs the whole analysis of a study file of the working folder.
 pub fn evaluate(path: &Path) -> Result<Evaluated, Diagnostics> {
-    let (study, planned) = plan(path)?;
-    let data = results::read(&study, &planned)?;
+    evaluate_in(&Disk, path)
+}
+
+/// [`evaluate`] with the study and the files it names read through `files`.
+pub fn evaluate_in(files: &dyn Files, path: &Path) -> Result<Evaluated, Diagnostics> {
+    let (study, planned) = plan_in(files, path)?;
+    let data = measurements::read(files, &study, &planned)?;
     let (design, order_changes) = executed(&planned, &data);
     let analysis = analysis::analyse(&study, &design, &data)?;
     let protocol = deviations::record(&study, &order_changes);

@@ -292,14 +292,19 @@ fn the_working_file_is_compared_with_its_previous_commit() {
 }
 
 #[test]
-fn the_temporary_copy_of_a_revision_is_removed_afterwards() {
+fn a_revision_reads_the_committed_results_not_the_working_file() {
     let dir = tempfile::tempdir().unwrap();
     let study = repository(dir.path());
+    let committed = std::fs::read(study.with_file_name("results.csv")).unwrap();
+    std::fs::write(study.with_file_name("results.csv"), "edited since\n").unwrap();
     let rev = diff::load_revision(&study, "HEAD").unwrap();
-    let folder = rev.folder().to_path_buf();
-    assert!(folder.join("studies/hplc/results.csv").is_file());
-    drop(rev);
-    assert!(!folder.exists());
+    let read = plateau::files::Files::read(
+        &rev.files,
+        std::path::Path::new("studies/hplc/results.csv"),
+        u64::MAX,
+    );
+    assert_eq!(read.unwrap(), committed);
+    assert!(diff::evaluate_revision(&rev).is_ok());
 }
 
 #[test]

@@ -20,7 +20,7 @@ use super::{
     Effect, LimitSummary, ResponseAnalysis, RunValue, anova, curvature, data_decimals, drift, mean,
 };
 use crate::design::{Design, TermMask, term_factors, term_order};
-use crate::study::results::Measurements;
+use crate::measurements::Measurements;
 use crate::study::{FieldPath, LimitUnit, PercentOf, Study, model::Role};
 
 pub use super::observations::{DRIFT_ALPHA, MAX_LEAST_SQUARES_TERMS};

@@ -26,7 +26,7 @@ pub use verdict::{FollowUp, Note, Outcome, UnresolvedChain, Verdict};
 use serde::Serialize;
 
 use crate::design::{Design, TermMask, term_factors};
-use crate::study::results::{DataFile, Measurements};
+use crate::measurements::{DataFile, Measurements};
 use crate::study::{Diagnostics, LimitUnit, Study};
 
 /// The whole analysis of one study (the `analysis.json` document).

@@ -8,7 +8,7 @@ use super::model::Fit;
 use super::summary::{ErrorEstimate, Repeatability};
 use super::{effects, mean};
 use crate::design::{Design, TermMask, term_factors, term_order};
-use crate::study::results::Measurements;
+use crate::measurements::Measurements;
 use crate::study::{Levels, Study};
 
 /// The runs of one response as the analysis uses them.

@@ -1,5 +1,6 @@
-//! A study as committed at a git revision, written to a temporary folder so the normal
-//! pipeline can analyse it unchanged.
+//! A study as committed at a git revision, read into memory with the files it names so the
+//! normal pipeline analyses it through [`crate::files::InMemory`], unchanged and without
+//! temporary copies.
 //!
 //! Only read-only git commands are run (`rev-parse`, `cat-file -t`, `show`), each in the
 //! repository of the study file. The study file and its results CSV are taken from the same
@@ -7,8 +8,8 @@
 
 use std::path::{Component, Path, PathBuf};
 use std::process::Command;
-use std::sync::atomic::{AtomicU64, Ordering};
 
+use crate::files::InMemory;
 use crate::pipeline::{self, Evaluated};
 use crate::study::Diagnostics;
 
@@ -103,58 +104,9 @@ pub enum DiffError {
         /// What git said.
         stderr: String,
     },
-    /// The temporary copy could not be written.
-    #[error("failed to write {path} ({cause})")]
-    Write {
-        /// The path.
-        path: String,
-        /// The reason.
-        cause: String,
-    },
 }
 
-/// A folder removed with everything in it when dropped.
-#[derive(Debug)]
-struct TempFolder(PathBuf);
-
-impl Drop for TempFolder {
-    fn drop(&mut self) {
-        let _ = std::fs::remove_dir_all(&self.0);
-        crate::output::cleanup::unregister_folder(&self.0);
-    }
-}
-
-impl TempFolder {
-    fn new() -> Result<Self, DiffError> {
-        static COUNTER: AtomicU64 = AtomicU64::new(0);
-        let base = std::env::temp_dir();
-        let mut last = String::new();
-        // A fresh name per attempt: create_dir fails rather than reuse a folder someone made.
-        for _ in 0..16 {
-            let nanos = std::time::SystemTime::now()
-                .duration_since(std::time::UNIX_EPOCH)
-                .map_or(0, |d| d.subsec_nanos());
-            let n = COUNTER.fetch_add(1, Ordering::Relaxed);
-            let dir = base.join(format!("plateau-diff-{}-{n}-{nanos}", std::process::id()));
-            match std::fs::create_dir(&dir) {
-                Ok(()) => {
-                    // Removed on SIGINT/SIGTERM/SIGHUP too, not only when dropped.
-                    crate::output::cleanup::install();
-                    crate::output::cleanup::register_folder(&dir);
-                    return Ok(Self(dir));
-                }
-                Err(e) => last = e.to_string(),
-            }
-        }
-        Err(DiffError::Write {
-            path: base.display().to_string(),
-            cause: last,
-        })
-    }
-}
-
-/// A study file as committed at a revision, copied with its results file into a temporary
-/// folder (removed when this value is dropped).
+/// A study file as committed at a revision, with the files it names, held in memory.
 #[derive(Debug)]
 pub struct Revision {
     /// The revision as given, e.g. `HEAD~1`.
@@ -169,9 +121,9 @@ pub struct Revision {
     pub text: String,
     /// The results file relative to the repository root, when the study reads one.
     pub data_path: Option<String>,
-    /// Where the study file was written; give it to [`evaluate_revision`].
-    pub study_path: PathBuf,
-    folder: TempFolder,
+    /// The committed files, named `REV:path` in messages; give the revision to
+    /// [`evaluate_revision`].
+    pub files: InMemory,
 }
 
 impl Revision {
@@ -183,11 +135,6 @@ impl Revision {
     /// The study file as git names it: `HEAD~1:examples/hplc-assay/study.yaml`.
     pub fn file(&self) -> String {
         format!("{}:{}", self.rev, self.repo_path)
-    }
-
-    /// The temporary folder holding the copies.
-    pub fn folder(&self) -> &Path {
-        &self.folder.0
     }
 }
 
@@ -249,7 +196,7 @@ fn blob(root: &Path, rev: &str, commit: &str, file: &str) -> Result<Vec<u8>, Dif
     }
     // Bounded like the files themselves (the results limit, the largest input): the size is
     // asked first so a huge blob is never read into memory.
-    let limit = crate::study::results::MAX_RESULTS_BYTES;
+    let limit = crate::measurements::MAX_RESULTS_BYTES;
     let size = git_text(root, &["cat-file", "-s", &spec])?
         .and_then(|s| s.parse::<u64>().ok())
         .unwrap_or(u64::MAX);
@@ -270,26 +217,13 @@ fn blob(root: &Path, rev: &str, commit: &str, file: &str) -> Result<Vec<u8>, Dif
     Ok(out.stdout)
 }
 
-fn write_copy(folder: &Path, file: &str, bytes: &[u8]) -> Result<PathBuf, DiffError> {
-    let path = folder.join(file);
-    let fail = |p: &Path, e: std::io::Error| DiffError::Write {
-        path: p.display().to_string(),
-        cause: e.to_string(),
-    };
-    if let Some(parent) = path.parent() {
-        std::fs::create_dir_all(parent).map_err(|e| fail(parent, e))?;
-    }
-    std::fs::write(&path, bytes).map_err(|e| fail(&path, e))?;
-    Ok(path)
-}
-
-/// Reads the study file `path` as committed at `rev`, with its results file from the same
-/// commit, into a temporary folder that mirrors the repository layout.
+/// Reads the study file `path` as committed at `rev`, with the files it names from the same
+/// commit, into memory under their paths relative to the repository root.
 ///
 /// The repository is found with `git rev-parse --show-toplevel` in the study's folder, the
 /// revision resolved with `git rev-parse --verify REV^{commit}`, and each file read with
 /// `git show COMMIT:<path relative to the root>`. The working file need not exist (a study
-/// deleted since). A study that does not load at that revision is still copied: the
+/// deleted since). A study that does not load at that revision is still read: the
 /// pipeline then reports its problems ([`evaluate_revision`]).
 pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
     if rev.is_empty() || rev.starts_with('-') {
@@ -343,14 +277,16 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
         repo: root.display().to_string(),
     })?;
 
-    let folder = TempFolder::new()?;
+    // An absolute path names a file outside the repository, which has no committed version:
+    // it is read from the disk, and the check names it if it is not there.
+    let mut files = InMemory::labelled(rev).absolute_paths_from_disk();
     let bytes = blob(&root, rev, &commit, &repo_path)?;
-    let study_path = write_copy(&folder.0, &repo_path, &bytes)?;
+    files.insert(&repo_path, bytes.clone());
     let text = String::from_utf8_lossy(&bytes).to_string();
 
-    // The files the study names (results, logo, protocol lock) are copied from the same commit. The study is
-    // only parsed here, not checked: the check needs those files in place (a logo named by
-    // the study was once missing from the copy, so the revision failed to load).
+    // The files the study names (results, logo, protocol lock) are read from the same commit.
+    // The study is only parsed here, not checked: the check needs those files in place (a
+    // logo named by the study was once missing, so the revision failed to load).
     let mut data_path = None;
     if let Ok(parsed) = crate::study::load::parse(
         &crate::study::load::decode(&bytes, &repo_path).unwrap_or_default(),
@@ -370,7 +306,7 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
                         rev: rev.to_string(),
                     });
                 }
-                continue; // the check of the copy names the logo
+                continue; // read from the disk (see above)
             }
             let study_dir = Path::new(&repo_path)
                 .parent()
@@ -383,7 +319,7 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
                     repo: root.display().to_string(),
                 })?;
             let bytes = blob(&root, rev, &commit, &in_repo)?;
-            write_copy(&folder.0, &in_repo, &bytes)?;
+            files.insert(&in_repo, bytes);
             if is_data {
                 data_path = Some(in_repo);
             }
@@ -397,27 +333,14 @@ pub fn load_revision(path: &Path, rev: &str) -> Result<Revision, DiffError> {
         repo_path,
         text,
         data_path,
-        study_path,
-        folder,
+        files,
     })
 }
 
 /// Runs the pipeline on a study read by [`load_revision`]; its problems name the files as
 /// `REV:path`, not the temporary copies.
 pub fn evaluate_revision(revision: &Revision) -> Result<Evaluated, Diagnostics> {
-    pipeline::evaluate(&revision.study_path).map_err(|mut d| {
-        let prefix = format!(
-            "{}{}",
-            revision.folder().display(),
-            std::path::MAIN_SEPARATOR
-        );
-        for diagnostic in &mut d.0 {
-            if let Some(rest) = diagnostic.file.strip_prefix(&prefix) {
-                diagnostic.file = format!("{}:{rest}", revision.rev);
-            }
-        }
-        d
-    })
+    pipeline::evaluate_in(&revision.files, Path::new(&revision.repo_path))
 }
 
 #[cfg(test)]
@@ -445,7 +368,6 @@ mod tests {
 
     #[test]
     fn the_label_abbreviates_the_commit() {
-        let folder = TempFolder::new().unwrap();
         let r = Revision {
             rev: "HEAD~1".into(),
             commit: "3f2a9c1d0e".into(),
@@ -453,19 +375,9 @@ mod tests {
             repo_path: "s/study.yaml".into(),
             text: String::new(),
             data_path: None,
-            study_path: PathBuf::new(),
-            folder,
+            files: InMemory::new(),
         };
         assert_eq!(r.label(), "HEAD~1 (3f2a9c1)");
         assert_eq!(r.file(), "HEAD~1:s/study.yaml");
-    }
-
-    #[test]
-    fn the_temporary_folder_is_removed_when_dropped() {
-        let folder = TempFolder::new().unwrap();
-        let path = folder.0.clone();
-        assert!(path.is_dir());
-        drop(folder);
-        assert!(!path.exists());
     }
 }

@@ -14,7 +14,7 @@ mod text;
 use serde::Serialize;
 use serde_json::Value;
 
-use crate::study::results::DataFile;
+use crate::measurements::DataFile;
 
 pub use compare::compare;
 pub use git::{DiffError, Revision, evaluate_revision, load_revision};

@@ -8,6 +8,7 @@ use std::path::Path;
 use sha2::{Digest, Sha256};
 
 use super::diagnostic::{Diagnostic, Diagnostics, FieldPath};
+use crate::files::{Disk, Files};
 use super::model::StudyFile;
 use super::{Study, check, schema};
 
@@ -17,42 +18,17 @@ pub const MAX_STUDY_BYTES: u64 = 4 * 1024 * 1024;
 /// The path that names standard input (`plateau check -`).
 pub const STDIN: &str = "-";
 
-/// Loads and checks a study file; the path `-` reads the study from standard input (files it
-/// names are then found from the current folder).
+/// Loads and checks a study file from the working folder; the path `-` reads the study from
+/// standard input (files it names are then found from the current folder).
 pub fn load(path: &Path) -> Result<Study, Diagnostics> {
+    load_from(&Disk, path)
+}
+
+/// Loads and checks a study file read through `files` (see [`crate::files`]).
+pub fn load_from(files: &dyn Files, path: &Path) -> Result<Study, Diagnostics> {
     if path == Path::new(STDIN) {
         let file_name = "<stdin>".to_string();
-        // Read once per process: `check` plans and then evaluates the same study.
-        static STDIN_BYTES: std::sync::OnceLock<Result<Vec<u8>, String>> =
-            std::sync::OnceLock::new();
-        let read = STDIN_BYTES.get_or_init(|| {
-            let mut bytes = Vec::new();
-            std::io::Read::read_to_end(
-                &mut std::io::Read::take(std::io::stdin().lock(), MAX_STUDY_BYTES + 1),
-                &mut bytes,
-            )
-            .map(|_| bytes)
-            .map_err(|e| e.to_string())
-        });
-        let bytes = match read {
-            Ok(b) => b.clone(),
-            Err(e) => {
-                return Err(Diagnostics(vec![Diagnostic::field(
-                    &file_name,
-                    &FieldPath::root(),
-                    format!("failed to read standard input ({e})"),
-                    None,
-                )]));
-            }
-        };
-        if bytes.len() as u64 > MAX_STUDY_BYTES {
-            return Err(Diagnostics(vec![Diagnostic::field(
-                &file_name,
-                &FieldPath::root(),
-                format!("standard input holds more than {MAX_STUDY_BYTES} bytes"),
-                Some("a study file of at most 4 MiB".into()),
-            )]));
-        }
+        let bytes = stdin_bytes(&file_name)?;
         let text = decode(&bytes, &file_name)?;
         let study_file = parse(&text, &file_name)?;
         return check::study(
@@ -63,11 +39,41 @@ pub fn load(path: &Path) -> Result<Study, Diagnostics> {
             study_file,
         );
     }
-    let file_name = path.display().to_string();
-    let bytes = read_limited(path, MAX_STUDY_BYTES, &file_name)?;
+    let file_name = files.show(path);
+    let bytes = read(files, path, MAX_STUDY_BYTES, &file_name)?;
     let text = decode(&bytes, &file_name)?;
     let study_file = parse(&text, &file_name)?;
     check::study(path, &file_name, &text, sha256_hex(&bytes), study_file)
+}
+
+/// Standard input, read once per process: `check` plans and then evaluates the same study.
+fn stdin_bytes(file_name: &str) -> Result<Vec<u8>, Diagnostics> {
+    static STDIN_BYTES: std::sync::OnceLock<Result<Vec<u8>, String>> = std::sync::OnceLock::new();
+    let read = STDIN_BYTES.get_or_init(|| {
+        let mut bytes = Vec::new();
+        std::io::Read::read_to_end(
+            &mut std::io::Read::take(std::io::stdin().lock(), MAX_STUDY_BYTES + 1),
+            &mut bytes,
+        )
+        .map(|_| bytes)
+        .map_err(|e| e.to_string())
+    });
+    let whole = |problem: String, expected: Option<String>| {
+        Diagnostics(vec![Diagnostic::field(
+            file_name,
+            &FieldPath::root(),
+            problem,
+            expected,
+        )])
+    };
+    match read {
+        Err(e) => Err(whole(format!("failed to read standard input ({e})"), None)),
+        Ok(b) if b.len() as u64 > MAX_STUDY_BYTES => Err(whole(
+            format!("standard input holds more than {MAX_STUDY_BYTES} bytes"),
+            Some("a study file of at most 4 MiB".into()),
+        )),
+        Ok(b) => Ok(b.clone()),
+    }
 }
 
 /// Parses and schema-checks study text; the typed model on success.
@@ -86,59 +92,26 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
     digest.iter().map(|b| format!("{b:02x}")).collect()
 }
 
-/// Reads a file, refusing one larger than `limit` before reading it into memory.
-pub fn read_limited(path: &Path, limit: u64, file_name: &str) -> Result<Vec<u8>, Diagnostics> {
-    let whole_file = |problem: String, expected: Option<String>| {
+/// Reads a file through `files`; a refusal is a whole-file diagnostic naming `file_name`.
+pub fn read(
+    files: &dyn Files,
+    path: &Path,
+    limit: u64,
+    file_name: &str,
+) -> Result<Vec<u8>, Diagnostics> {
+    files.read(path, limit).map_err(|e| {
         Diagnostics(vec![Diagnostic::field(
             file_name,
             &FieldPath::root(),
-            problem,
-            expected,
+            e.problem(),
+            e.expected(),
         )])
-    };
-    let meta = std::fs::metadata(path).map_err(|e| whole_file(io_problem(&e), None))?;
-    if meta.is_dir() {
-        return Err(whole_file(
-            "is a folder".into(),
-            Some("expected a study file (.yaml)".into()),
-        ));
-    }
-    // Only regular files are opened: opening a FIFO blocks until someone writes to it, and a
-    // device may never end.
-    if !meta.is_file() {
-        return Err(whole_file(
-            "is not a regular file (a pipe, socket or device)".into(),
-            Some("expected a regular file".into()),
-        ));
-    }
-    let too_large = |size: String| {
-        whole_file(
-            format!("the file is too large ({size} bytes)"),
-            Some(format!("expected at most {limit} bytes")),
-        )
-    };
-    if meta.len() > limit {
-        return Err(too_large(meta.len().to_string()));
-    }
-    // The size in the metadata is not a bound: a device such as /dev/zero, a pipe or a file
-    // still growing reports 0 or less than it yields, so the read itself stops at the limit.
-    let file = std::fs::File::open(path).map_err(|e| whole_file(io_problem(&e), None))?;
-    let mut bytes = Vec::new();
-    std::io::Read::read_to_end(&mut std::io::Read::take(file, limit + 1), &mut bytes)
-        .map_err(|e| whole_file(io_problem(&e), None))?;
-    if bytes.len() as u64 > limit {
-        return Err(too_large(format!("more than {limit}")));
-    }
-    Ok(bytes)
+    })
 }
 
-/// A short lowercase description of an I/O error.
-pub fn io_problem(e: &std::io::Error) -> String {
-    match e.kind() {
-        std::io::ErrorKind::NotFound => "file not found".into(),
-        std::io::ErrorKind::PermissionDenied => "permission denied".into(),
-        _ => format!("cannot read the file ({e})"),
-    }
+/// Reads a file of the working folder (see [`read`]).
+pub fn read_limited(path: &Path, limit: u64, file_name: &str) -> Result<Vec<u8>, Diagnostics> {
+    read(&Disk, path, limit, file_name)
 }
 
 /// UTF-8 text from bytes, with the position of the first invalid byte; a leading byte-order

@@ -10,7 +10,6 @@ pub mod glyphs;
 pub mod load;
 pub mod locate;
 pub mod model;
-pub mod results;
 pub mod schema;
 
 use std::path::PathBuf;

@@ -417,25 +417,14 @@ pub fn run_case(case: &CaseFile) -> CaseResult {
     result
 }
 
-/// The analysis document of a case's study.
+/// The analysis document of a case's study, analysed in memory: a study file is YAML, and JSON
+/// is YAML, so the study is handed over as JSON, byte for byte what the case holds.
 fn analyse(case: &CaseFile) -> Result<Value, String> {
-    static COUNTER: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
-    let n = COUNTER.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
-    let dir = std::env::temp_dir().join(format!("plateau-verify-{}-{n}", std::process::id()));
-    // A study file is YAML, and JSON is YAML: the study is written as JSON, byte for byte
-    // what the case holds.
     let text = serde_json::to_string_pretty(&case.study).map_err(|e| e.to_string())?;
-    let file = dir.join(format!("{}.yaml", safe_name(&case.case.id)));
-    let outcome = (|| {
-        std::fs::create_dir_all(&dir)
-            .map_err(|e| format!("cannot create {} ({e})", dir.display()))?;
-        std::fs::write(&file, text)
-            .map_err(|e| format!("cannot write {} ({e})", file.display()))?;
-        let evaluated = crate::pipeline::evaluate(&file).map_err(|d| d.to_string())?;
-        serde_json::to_value(&evaluated.analysis).map_err(|e| e.to_string())
-    })();
-    let _ = std::fs::remove_dir_all(&dir);
-    outcome
+    let path = PathBuf::from(format!("{}.yaml", safe_name(&case.case.id)));
+    let files = crate::files::InMemory::new().with(&path, text);
+    let evaluated = crate::pipeline::evaluate_in(&files, &path).map_err(|d| d.to_string())?;
+    serde_json::to_value(&evaluated.analysis).map_err(|e| e.to_string())
 }
 
 fn safe_name(id: &str) -> String {
