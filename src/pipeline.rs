@@ -36,8 +36,8 @@ pub fn plan(path: &Path) -> Result<(Study, Design), Diagnostics> {
 /// [`plan`] with the study and the files it names read through `files`.
 pub fn plan_in(files: &dyn Files, path: &Path) -> Result<(Study, Design), Diagnostics> {
     let mut study = study::load::load_from(files, path)?;
-    study.lock = crate::protocol::read_lock(&study)?;
-    let design = design::plan(&study)?;
+    study.lock = crate::protocol::read_lock(&study).map_err(|d| in_context(d, &study))?;
+    let design = design::plan(&study).map_err(|d| in_context(d, &study))?;
     Ok((study, design))
 }
 
@@ -49,9 +49,9 @@ pub fn evaluate(path: &Path) -> Result<Evaluated, Diagnostics> {
 /// [`evaluate`] with the study and the files it names read through `files`.
 pub fn evaluate_in(files: &dyn Files, path: &Path) -> Result<Evaluated, Diagnostics> {
     let (study, planned) = plan_in(files, path)?;
-    let data = measurements::read(files, &study, &planned)?;
+    let data = measurements::read(files, &study, &planned).map_err(|d| in_context(d, &study))?;
     let (design, order_changes) = executed(&planned, &data);
-    let analysis = analysis::analyse(&study, &design, &data)?;
+    let analysis = analysis::analyse(&study, &design, &data).map_err(|d| in_context(d, &study))?;
     let protocol = deviations::record(&study, &order_changes);
     Ok(Evaluated {
         study,
@@ -61,6 +61,12 @@ pub fn evaluate_in(files: &dyn Files, path: &Path) -> Result<Evaluated, Diagnost
         order_changes,
         protocol,
     })
+}
+
+/// Problems found after loading, with the study lines they point at (see
+/// [`Diagnostics::render`]).
+fn in_context(diagnostics: Diagnostics, study: &Study) -> Diagnostics {
+    diagnostics.with_source(&study.file_name, &study.text)
 }
 
 /// The design as executed: each run at the position the results give it (so that the drift

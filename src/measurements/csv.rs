@@ -32,6 +32,7 @@ pub(super) fn rows(
             field: field.to_string(),
             problem,
             expected,
+            source_line: None,
         };
     let bytes = match load::read(files, &path, MAX_RESULTS_BYTES, &name) {
         Ok(b) => b,
@@ -59,11 +60,25 @@ pub(super) fn rows(
     let (text, encoding) =
         dialect::decode(&bytes, declared.encoding).map_err(dialect_error)?;
     let dialect = dialect::sniff(&text, encoding, &declared).map_err(dialect_error)?;
-    let dialect_text = dialect.describe();
     let data = DataFile {
         name: file.to_string(),
         sha256: sha256_hex(&bytes),
     };
+    table(study, design, &name, &text, dialect, &one)
+        .map(|rows| (rows, data))
+        .map_err(|d| d.with_source(&name, &text))
+}
+
+/// The rows of the decoded CSV text, matched to the plan.
+fn table(
+    study: &Study,
+    design: &Design,
+    name: &str,
+    text: &str,
+    dialect: dialect::Dialect,
+    one: &dyn Fn(Option<usize>, &str, String, Option<String>) -> Diagnostic,
+) -> Result<Vec<Row>, Diagnostics> {
+    let dialect_text = dialect.describe();
     // Line numbers come from byte offsets: the csv crate's own line count is one too low for a
     // file with CRLF line ends.
     let newlines: Vec<usize> = text
@@ -272,7 +287,7 @@ pub(super) fn rows(
             run,
             values,
             at: Locus {
-                file: name.clone(),
+                file: name.to_string(),
                 position: line.map(|l| (l, 1)),
                 field: "run".into(),
             },
@@ -306,7 +321,7 @@ pub(super) fn rows(
         }
     }
     if problems.is_empty() {
-        Ok((rows, data))
+        Ok(rows)
     } else {
         Err(problems)
     }

@@ -257,6 +257,7 @@ impl Locus {
             field: self.field.clone(),
             problem,
             expected,
+            source_line: None,
         }
     }
 }

@@ -76,6 +76,10 @@ pub struct Diagnostic {
     pub problem: String,
     /// What would be valid.
     pub expected: Option<String>,
+    /// The text of the line `line` points into, so the problem can be shown in its context
+    /// (see [`Diagnostics::render`]); not part of the JSON form, which names the position.
+    #[serde(skip)]
+    pub source_line: Option<String>,
 }
 
 impl Diagnostic {
@@ -93,6 +97,7 @@ impl Diagnostic {
             field: field.to_string(),
             problem: problem.into(),
             expected: expected.into(),
+            source_line: None,
         }
     }
 
@@ -161,6 +166,98 @@ impl Diagnostics {
     }
 }
 
+impl Diagnostics {
+    /// Attaches to every diagnostic of `file` that has a line the text of that line, taken from
+    /// `text` (the file's content as it was checked, not as it may be on disk by now).
+    pub fn with_source(mut self, file: &str, text: &str) -> Self {
+        for d in &mut self.0 {
+            if d.file == file
+                && d.source_line.is_none()
+                && let Some(line) = d.line.and_then(|l| text.lines().nth(l.checked_sub(1)?))
+            {
+                d.source_line = Some(line.to_string());
+            }
+        }
+        self
+    }
+
+    /// The diagnostics for a person: each one-line message (the `FILE:LINE:COL: FIELD:
+    /// problem; expected` form that editors and scripts parse), followed by the source line
+    /// with the field underlined where the line is known. `styled` adds terminal colours.
+    pub fn render(&self, styled: bool) -> String {
+        let renderer = if styled {
+            annotate_snippets::Renderer::styled()
+        } else {
+            annotate_snippets::Renderer::plain()
+        };
+        let mut out = String::new();
+        for (i, d) in self.0.iter().enumerate() {
+            if i > 0 {
+                out.push('\n');
+            }
+            out.push_str(&d.to_string());
+            if let Some(snippet) = d.snippet(&renderer) {
+                out.push('\n');
+                out.push_str(&snippet);
+            }
+        }
+        out
+    }
+}
+
+impl Diagnostic {
+    /// The source line with the problem underlined, or `None` without a source line.
+    fn snippet(&self, renderer: &annotate_snippets::Renderer) -> Option<String> {
+        use annotate_snippets::{AnnotationKind, Group, Level, Snippet};
+        let source = self.source_line.as_deref()?;
+        let line = self.line?;
+        let span = underline(source, self.column);
+        if span.is_empty() {
+            return None;
+        }
+        let label = self.expected.as_deref().unwrap_or(&self.problem);
+        let report = &[Group::with_level(Level::ERROR).element(
+            Snippet::source(source)
+                .line_start(line)
+                .annotation(AnnotationKind::Primary.span(span).label(label)),
+        )];
+        Some(renderer.render(report).trim_end().to_string())
+    }
+}
+
+/// The byte range to underline: the token starting at the 1-based character `column` (up to a
+/// separator of a flow collection, a comment or a key's colon), or the whole line's text when
+/// the column is not known (a CSV row).
+fn underline(line: &str, column: Option<usize>) -> std::ops::Range<usize> {
+    let trimmed_end = line.trim_end().len();
+    let Some(column) = column else {
+        let start = line.len() - line.trim_start().len();
+        return start..trimmed_end.max(start);
+    };
+    let Some((start, _)) = line.char_indices().nth(column.saturating_sub(1)) else {
+        return 0..0;
+    };
+    let rest = &line[start..];
+    let quoted = rest.starts_with('"') || rest.starts_with('\'');
+    let len = if quoted {
+        let quote = rest.as_bytes()[0] as char;
+        rest[1..].find(quote).map_or(rest.len(), |i| i + 2)
+    } else {
+        // A plain scalar ends at a flow separator, a comment (` #`) or a key's colon (`: `).
+        rest.char_indices()
+            .find(|&(i, c)| match c {
+                ',' | '}' | ']' => true,
+                '#' => rest[..i].ends_with(' '),
+                ':' => rest[i + 1..].chars().next().is_none_or(|n| n == ' '),
+                _ => false,
+            })
+            .map_or(rest.len(), |(i, _)| i)
+    };
+    let end = (start + len).min(trimmed_end.max(start));
+    let token = line[start..end].trim_end();
+    start..start + token.len()
+}
+
 impl fmt::Display for Diagnostics {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         for (i, d) in self.0.iter().enumerate() {
@@ -190,6 +287,75 @@ pub fn closest<'a>(wrong: &str, valid: impl IntoIterator<Item = &'a str>) -> Opt
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    fn at(line: usize, column: Option<usize>, source: &str) -> Diagnostic {
+        Diagnostic {
+            file: "study.yaml".into(),
+            line: Some(line),
+            column,
+            field: "factors[0].delta".into(),
+            problem: "must be positive".into(),
+            expected: Some("expected a number > 0".into()),
+            source_line: Some(source.into()),
+        }
+    }
+
+    #[test]
+    fn a_rendered_diagnostic_keeps_its_one_line_form_first() {
+        let text = Diagnostics(vec![at(4, Some(12), "    delta: -3")]).render(false);
+        assert_eq!(
+            text.lines().next(),
+            Some("study.yaml:4:12: factors[0].delta: must be positive; expected a number > 0")
+        );
+    }
+
+    #[test]
+    fn a_rendered_diagnostic_underlines_the_value_on_its_numbered_line() {
+        let text = Diagnostics(vec![at(4, Some(12), "    delta: -3  # too wide")]).render(false);
+        let lines: Vec<&str> = text.lines().collect();
+        let source = lines.iter().position(|l| l.contains("delta: -3")).unwrap();
+        assert!(lines[source].trim_start().starts_with("4 |"), "{text}");
+        let marks = lines[source + 1];
+        let col = lines[source].find("-3").unwrap();
+        assert_eq!(marks.find('^'), Some(col), "{text}");
+        assert_eq!(marks.matches('^').count(), 2, "{text}");
+        assert!(marks.contains("expected a number > 0"), "{text}");
+    }
+
+    #[test]
+    fn a_key_is_underlined_up_to_its_colon() {
+        assert_eq!(underline("  detla: 2", Some(3)), 2..7);
+    }
+
+    #[test]
+    fn a_time_value_is_underlined_whole() {
+        assert_eq!(underline("time: 12:30", Some(7)), 6..11);
+    }
+
+    #[test]
+    fn a_quoted_value_is_underlined_with_its_quotes() {
+        assert_eq!(underline("  id: \"a b\" # x", Some(7)), 6..11);
+    }
+
+    #[test]
+    fn a_row_without_column_is_underlined_whole() {
+        assert_eq!(underline("  N1,99.5,  ", None), 2..10);
+    }
+
+    #[test]
+    fn a_diagnostic_without_source_renders_as_one_line() {
+        let mut d = at(4, Some(12), "");
+        d.source_line = None;
+        assert_eq!(Diagnostics(vec![d.clone()]).render(false), d.to_string());
+    }
+
+    #[test]
+    fn the_source_is_attached_from_the_checked_text() {
+        let mut d = at(2, Some(1), "");
+        d.source_line = None;
+        let ds = Diagnostics(vec![d]).with_source("study.yaml", "a: 1\r\nbb: 2\r\n");
+        assert_eq!(ds.0[0].source_line.as_deref(), Some("bb: 2"));
+    }
 
     #[test]
     fn field_paths_print_as_dotted_keys_with_indices() {

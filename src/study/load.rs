@@ -30,20 +30,24 @@ pub fn load_from(files: &dyn Files, path: &Path) -> Result<Study, Diagnostics> {
         let file_name = "<stdin>".to_string();
         let bytes = stdin_bytes(&file_name)?;
         let text = decode(&bytes, &file_name)?;
-        let study_file = parse(&text, &file_name)?;
-        return check::study(
-            Path::new("./<stdin>"),
-            &file_name,
-            &text,
-            sha256_hex(&bytes),
-            study_file,
-        );
+        return parse(&text, &file_name)
+            .and_then(|study_file| {
+                check::study(
+                    Path::new("./<stdin>"),
+                    &file_name,
+                    &text,
+                    sha256_hex(&bytes),
+                    study_file,
+                )
+            })
+            .map_err(|d| d.with_source(&file_name, &text));
     }
     let file_name = files.show(path);
     let bytes = read(files, path, MAX_STUDY_BYTES, &file_name)?;
     let text = decode(&bytes, &file_name)?;
-    let study_file = parse(&text, &file_name)?;
-    check::study(path, &file_name, &text, sha256_hex(&bytes), study_file)
+    parse(&text, &file_name)
+        .and_then(|study_file| check::study(path, &file_name, &text, sha256_hex(&bytes), study_file))
+        .map_err(|d| d.with_source(&file_name, &text))
 }
 
 /// Standard input, read once per process: `check` plans and then evaluates the same study.
@@ -77,6 +81,11 @@ fn stdin_bytes(file_name: &str) -> Result<Vec<u8>, Diagnostics> {
 }
 
 /// Parses and schema-checks study text; the typed model on success.
+///
+/// The text is read twice by design: into a plain value for the schema check, then into the
+/// typed model, whose reader is stricter than the plain one: it refuses `0x1F` or `1_000` where a
+/// decimal number is wanted, while the plain value takes them as numbers (the bad-input cases
+/// `number-hex` and `number-underscore`).
 pub fn parse(text: &str, file_name: &str) -> Result<StudyFile, Diagnostics> {
     let data: serde_json::Value = from_yaml(text, file_name)?;
     let problems = schema::check(&data, text, file_name);

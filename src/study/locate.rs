@@ -1,16 +1,71 @@
 //! Maps a field path back to its line and column in the YAML text.
 //!
 //! The JSON Schema check and the semantic checks work on values without positions; the user
-//! needs the line. This re-parses the (already accepted) text with saphyr's marked nodes and walks
-//! the path, stopping at the deepest node that exists so a missing key points at its parent.
+//! needs the line. This parses the (already accepted) text once with saphyr's marked nodes into
+//! a tree of positions and walks it by path, stopping at the deepest node that exists so a
+//! missing key points at its parent.
+
+use std::marker::PhantomData;
+use std::sync::Arc;
 
 use saphyr::{LoadableYamlNode, MarkedYaml, YamlData};
 
 use super::diagnostic::{FieldPath, Segment};
 
-/// Positions of the nodes of one YAML document.
+/// Positions of the nodes of one YAML document, parsed once and then queried for every
+/// diagnostic (the tree holds positions and key names only, not the values).
+#[derive(Debug, Clone)]
 pub struct Locator<'a> {
-    root: Option<MarkedYaml<'a>>,
+    root: Option<Arc<Node>>,
+    text: PhantomData<&'a str>,
+}
+
+/// A node: where it starts and ends (1-based line and column) and its children.
+#[derive(Debug)]
+struct Node {
+    start: (usize, usize),
+    end: (usize, usize),
+    children: Children,
+}
+
+#[derive(Debug)]
+enum Children {
+    /// A scalar; its text when it is a string (a mapping key is matched by it).
+    Scalar(Option<String>),
+    Mapping(Vec<(Node, Node)>),
+    Sequence(Vec<Node>),
+}
+
+impl Node {
+    fn from_marked(node: &MarkedYaml<'_>) -> Self {
+        let children = match &node.data {
+            YamlData::Mapping(map) => Children::Mapping(
+                map.iter()
+                    .map(|(k, v)| (Node::from_marked(k), Node::from_marked(v)))
+                    .collect(),
+            ),
+            YamlData::Sequence(items) => {
+                Children::Sequence(items.iter().map(Node::from_marked).collect())
+            }
+            other => Children::Scalar(other.as_str().map(str::to_string)),
+        };
+        Node {
+            start: (node.span.start.line(), node.span.start.col() + 1),
+            end: (node.span.end.line(), node.span.end.col() + 1),
+            children,
+        }
+    }
+
+    fn key_text(&self) -> Option<&str> {
+        match &self.children {
+            Children::Scalar(text) => text.as_deref(),
+            _ => None,
+        }
+    }
+
+    fn is_collection(&self) -> bool {
+        !matches!(self.children, Children::Scalar(_))
+    }
 }
 
 impl<'a> Locator<'a> {
@@ -18,55 +73,64 @@ impl<'a> Locator<'a> {
     pub fn new(text: &'a str) -> Self {
         let root = MarkedYaml::load_from_str(text)
             .ok()
-            .and_then(|docs| docs.into_iter().next());
-        Self { root }
+            .and_then(|docs| docs.first().map(Node::from_marked))
+            .map(Arc::new);
+        Self {
+            root,
+            text: PhantomData,
+        }
+    }
+
+    /// The same positions, kept beyond the life of the text they were read from.
+    pub fn detached(&self) -> Locator<'static> {
+        Locator {
+            root: self.root.clone(),
+            text: PhantomData,
+        }
     }
 
     /// 1-based (line, column) of the value at `path`, or of its deepest existing ancestor.
     pub fn value(&self, path: &[Segment]) -> Option<(usize, usize)> {
-        let mut node = self.root.as_ref()?;
+        let mut node = self.root.as_deref()?;
         for segment in path {
             match child(node, segment) {
                 Some((_, value)) => node = value,
                 None => break,
             }
         }
-        Some(position(node))
+        Some(node.start)
     }
 
     /// 1-based (line, column) of the key `key` in the mapping at `path` (for unknown fields).
     pub fn key(&self, path: &[Segment], key: &str) -> Option<(usize, usize)> {
-        let mut node = self.root.as_ref()?;
+        let mut node = self.root.as_deref()?;
         for segment in path {
             node = child(node, segment)?.1;
         }
-        match &node.data {
-            YamlData::Mapping(map) => map
+        match &node.children {
+            Children::Mapping(map) => map
                 .iter()
-                .find(|(k, _)| k.data.as_str() == Some(key))
-                .map(|(k, _)| position(k))
-                .or_else(|| Some(position(node))),
-            _ => Some(position(node)),
+                .find(|(k, _)| k.key_text() == Some(key))
+                .map(|(k, _)| k.start)
+                .or(Some(node.start)),
+            _ => Some(node.start),
         }
     }
-}
 
-impl Locator<'_> {
     /// The field path of the node that starts at 1-based (line, column), or of the innermost
     /// collection containing it; for turning a parser position back into a field name.
     pub fn path_at(&self, line: usize, column: usize) -> Option<FieldPath> {
-        let mut node = self.root.as_ref()?;
+        let mut node = self.root.as_deref()?;
         let mut path = Vec::new();
         let target = (line, column);
         'descend: loop {
-            match &node.data {
-                YamlData::Mapping(map) => {
-                    for (k, v) in map.iter() {
-                        let key = k.data.as_str().map(str::to_string);
-                        if position(k) == target || position(v) == target || contains(v, target) {
-                            let Some(key) = key else { break 'descend };
-                            path.push(Segment::Key(key));
-                            if position(k) == target || position(v) == target {
+            match &node.children {
+                Children::Mapping(map) => {
+                    for (k, v) in map {
+                        if k.start == target || v.start == target || contains(v, target) {
+                            let Some(key) = k.key_text() else { break 'descend };
+                            path.push(Segment::Key(key.to_string()));
+                            if k.start == target || v.start == target {
                                 break 'descend;
                             }
                             node = v;
@@ -75,11 +139,11 @@ impl Locator<'_> {
                     }
                     break;
                 }
-                YamlData::Sequence(items) => {
+                Children::Sequence(items) => {
                     for (i, v) in items.iter().enumerate() {
-                        if position(v) == target || contains(v, target) {
+                        if v.start == target || contains(v, target) {
                             path.push(Segment::Index(i));
-                            if position(v) == target {
+                            if v.start == target {
                                 break 'descend;
                             }
                             node = v;
@@ -88,40 +152,29 @@ impl Locator<'_> {
                     }
                     break;
                 }
-                _ => break,
+                Children::Scalar(_) => break,
             }
         }
         Some(FieldPath(path))
     }
 }
 
-fn contains(node: &MarkedYaml<'_>, (line, column): (usize, usize)) -> bool {
-    let start = position(node);
-    let end = (node.span.end.line(), node.span.end.col() + 1);
-    matches!(node.data, YamlData::Mapping(_) | YamlData::Sequence(_))
-        && start <= (line, column)
-        && (line, column) < end
+fn contains(node: &Node, position: (usize, usize)) -> bool {
+    node.is_collection() && node.start <= position && position < node.end
 }
 
-fn position(node: &MarkedYaml<'_>) -> (usize, usize) {
-    (node.span.start.line(), node.span.start.col() + 1)
-}
-
-fn child<'n, 'a>(
-    node: &'n MarkedYaml<'a>,
-    segment: &Segment,
-) -> Option<(Option<&'n MarkedYaml<'a>>, &'n MarkedYaml<'a>)> {
-    match (&node.data, segment) {
-        (YamlData::Sequence(items), Segment::Index(i)) => items.get(*i).map(|v| (None, v)),
-        (YamlData::Mapping(map), Segment::Key(k)) => map
+fn child<'n>(node: &'n Node, segment: &Segment) -> Option<(Option<&'n Node>, &'n Node)> {
+    match (&node.children, segment) {
+        (Children::Sequence(items), Segment::Index(i)) => items.get(*i).map(|v| (None, v)),
+        (Children::Mapping(map), Segment::Key(k)) => map
             .iter()
-            .find(|(key, _)| key.data.as_str() == Some(k.as_str()))
+            .find(|(key, _)| key.key_text() == Some(k.as_str()))
             .map(|(key, value)| (Some(key), value)),
-        (YamlData::Mapping(map), Segment::Index(i)) => {
+        (Children::Mapping(map), Segment::Index(i)) => {
             // A numeric mapping key that the pointer parsed as an index.
             let text = i.to_string();
             map.iter()
-                .find(|(key, _)| key.data.as_str() == Some(text.as_str()))
+                .find(|(key, _)| key.key_text() == Some(text.as_str()))
                 .map(|(key, value)| (Some(key), value))
         }
         _ => None,
