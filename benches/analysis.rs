@@ -16,8 +16,8 @@ use std::time::{Duration, Instant};
 
 use plateau::analysis::{self, effects};
 use plateau::design::{self, Design, TermMask};
-use plateau::pipeline;
 use plateau::measurements::{self, Measurements};
+use plateau::pipeline;
 use plateau::study::{self, Study};
 
 /// Fewest and most timed repetitions of one case.
@@ -141,7 +141,8 @@ results:\n  file: results.csv\n"
 fn load_all(path: &Path) -> (Study, Design, Measurements) {
     let study = study::load(path).unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
     let design = design::plan(&study).unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
-    let data = measurements::read(&plateau::files::Disk, &study, &design).unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
+    let data = measurements::read(&plateau::files::Disk, &study, &design)
+        .unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
     (study, design, data)
 }
 

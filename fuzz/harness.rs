@@ -10,9 +10,9 @@
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
-use plateau::report;
 use plateau::files::InMemory;
 use plateau::measurements;
+use plateau::report;
 
 /// How far an input got through the pipeline before plateau refused it (or got to the end).
 ///
@@ -84,10 +84,7 @@ fn csv_fixture() -> CsvFixture {
     // The example study is valid; failing to plan it is a harness bug, not a finding.
     let (study, design) = plateau::pipeline::plan_in(&files, Path::new("study.yaml"))
         .unwrap_or_else(|e| panic!("the fixed example study no longer plans: {e:?}"));
-    CsvFixture {
-        study,
-        design,
-    }
+    CsvFixture { study, design }
 }
 
 /// Results CSV reader: the HPLC example study with arbitrary bytes as its `results.csv`, then

@@ -156,11 +156,13 @@ pub fn inputs(study: &Study, templates: Option<&Path>, typst_version: Option<&st
             .as_ref()
             .and_then(|r| r.file.as_ref())
             .map(|f| (name(f), text_hash(&dir.join(f)))),
-        logo: study
-            .report
-            .logo
-            .as_ref()
-            .map(|f| (name(f), file_hash(&dir.join(f)))),
+        logo: study.report.logo.as_ref().map(|f| {
+            let hash = study
+                .logo
+                .as_deref()
+                .map_or_else(|| file_hash(&dir.join(f)), sha256_hex);
+            (name(f), hash)
+        }),
         templates: templates_used(templates),
         outputs: Vec::new(),
         lock: study

@@ -214,7 +214,10 @@ mod tests {
     #[test]
     fn a_missing_memory_file_is_not_found() {
         let files = InMemory::new();
-        assert_eq!(files.read(Path::new("a.csv"), 100), Err(ReadError::NotFound));
+        assert_eq!(
+            files.read(Path::new("a.csv"), 100),
+            Err(ReadError::NotFound)
+        );
     }
 
     #[test]
@@ -232,7 +235,10 @@ mod tests {
     #[test]
     fn labelled_files_are_shown_with_their_label() {
         let files = InMemory::labelled("HEAD~1").with("examples/s.yaml", "");
-        assert_eq!(files.show(Path::new("examples/./s.yaml")), "HEAD~1:examples/s.yaml");
+        assert_eq!(
+            files.show(Path::new("examples/./s.yaml")),
+            "HEAD~1:examples/s.yaml"
+        );
     }
 
     #[test]

@@ -398,7 +398,7 @@ fn run(command: Command) -> Result<(), Failure> {
             let mut s = plateau::study::load(&study)?;
             // The lock the study names is checked when it exists (the first run writes it).
             if plateau::protocol::lock_path(&s).is_some_and(|p| p.exists()) {
-                s.lock = plateau::protocol::read_lock(&s)?;
+                s.lock = plateau::protocol::read_lock(&plateau::files::Disk, &s)?;
             }
             let design = plateau::design::plan(&s)?;
             let dir = output.unwrap_or_else(|| report::protocol::default_dir(&study));
@@ -766,7 +766,7 @@ fn run(command: Command) -> Result<(), Failure> {
                 let dir = report::default_dir(file);
                 // The protocol lock is checked as `report` would check it.
                 let loaded = plateau::study::load(file).and_then(|mut s| {
-                    s.lock = plateau::protocol::read_lock(&s)?;
+                    s.lock = plateau::protocol::read_lock(&plateau::files::Disk, &s)?;
                     Ok(s)
                 });
                 let entry = match loaded {

@@ -4,9 +4,9 @@ use std::path::Path;
 
 use crate::analysis::{self, Analysis};
 use crate::design::{self, Design};
-use crate::protocol::deviations::{self, OrderChange, ProtocolRecord};
 use crate::files::{Disk, Files};
 use crate::measurements::{self, Measurements};
+use crate::protocol::deviations::{self, OrderChange, ProtocolRecord};
 use crate::study::{self, Diagnostics, Study};
 
 /// Everything known about one study after analysis.
@@ -36,7 +36,7 @@ pub fn plan(path: &Path) -> Result<(Study, Design), Diagnostics> {
 /// [`plan`] with the study and the files it names read through `files`.
 pub fn plan_in(files: &dyn Files, path: &Path) -> Result<(Study, Design), Diagnostics> {
     let mut study = study::load::load_from(files, path)?;
-    study.lock = crate::protocol::read_lock(&study).map_err(|d| in_context(d, &study))?;
+    study.lock = crate::protocol::read_lock(files, &study).map_err(|d| in_context(d, &study))?;
     let design = design::plan(&study).map_err(|d| in_context(d, &study))?;
     Ok((study, design))
 }

@@ -54,11 +54,9 @@ pub(super) fn rows(
         decimal: spec.and_then(|r| r.decimal),
         encoding: spec.and_then(|r| r.encoding),
     };
-    let dialect_error = |e: dialect::DialectError| {
-        Diagnostics(vec![one(e.line, "", e.problem, Some(e.expected))])
-    };
-    let (text, encoding) =
-        dialect::decode(&bytes, declared.encoding).map_err(dialect_error)?;
+    let dialect_error =
+        |e: dialect::DialectError| Diagnostics(vec![one(e.line, "", e.problem, Some(e.expected))]);
+    let (text, encoding) = dialect::decode(&bytes, declared.encoding).map_err(dialect_error)?;
     let dialect = dialect::sniff(&text, encoding, &declared).map_err(dialect_error)?;
     let data = DataFile {
         name: file.to_string(),

@@ -11,11 +11,11 @@ use serde_json::Value;
 mod csv;
 pub mod dialect;
 
+use crate::design::Design;
+use crate::files::Files;
 use crate::study::check::run_id;
 use crate::study::diagnostic::{Diagnostic, Diagnostics, FieldPath, closest};
-use crate::files::Files;
 use crate::study::{RunId, Study};
-use crate::design::Design;
 
 /// Largest results file accepted, in bytes.
 pub const MAX_RESULTS_BYTES: u64 = 64 * 1024 * 1024;
@@ -44,7 +44,11 @@ pub struct DataFile {
 }
 
 /// Reads the results of `study` for the runs of `design`.
-pub fn read(files: &dyn Files, study: &Study, design: &Design) -> Result<Measurements, Diagnostics> {
+pub fn read(
+    files: &dyn Files,
+    study: &Study,
+    design: &Design,
+) -> Result<Measurements, Diagnostics> {
     let Some(spec) = &study.results else {
         return Err(Diagnostics(vec![study.diagnostic(
             &FieldPath::of(&["results"]),

@@ -154,12 +154,15 @@ pub fn lock_path(study: &Study) -> Option<PathBuf> {
 
 /// Reads the lock the study names (`protocol: { lock: ... }`) and checks it against its own
 /// hash; `None` when the study names no protocol.
-pub fn read_lock(study: &Study) -> Result<Option<Lock>, Diagnostics> {
+pub fn read_lock(
+    files: &dyn crate::files::Files,
+    study: &Study,
+) -> Result<Option<Lock>, Diagnostics> {
     let (Some(spec), Some(path)) = (study.protocol.as_ref(), lock_path(study)) else {
         return Ok(None);
     };
     let field = FieldPath::of(&["protocol", "lock"]);
-    let shown = path.display().to_string();
+    let shown = files.show(&path);
     let fail = |problem: String, expected: &str| {
         Diagnostics(vec![study.diagnostic(
             &field,
@@ -167,8 +170,8 @@ pub fn read_lock(study: &Study) -> Result<Option<Lock>, Diagnostics> {
             Some(expected.to_string()),
         )])
     };
-    let bytes = crate::study::load::read_limited(&path, MAX_LOCK_BYTES, &shown).map_err(|d| {
-        let cause = d.0.first().map(|d| d.problem.clone()).unwrap_or_default();
+    let bytes = files.read(&path, MAX_LOCK_BYTES).map_err(|e| {
+        let cause = e.problem();
         fail(
             format!("failed to read the protocol lock {shown} ({cause})"),
             "expected the protocol.lock.json written by `plateau protocol` for this study, at a path relative to the study file",

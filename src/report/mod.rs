@@ -155,25 +155,11 @@ pub fn render_revision(
         crate::batch::RECORD.to_string(),
         (record + "\n").into_bytes(),
     ));
-    if let (Some(logo), Some(name)) = (
-        &evaluated.study.report.logo,
+    if let (Some(bytes), Some(name)) = (
+        &evaluated.study.logo,
         context::logo_file_name(&evaluated.study),
     ) {
-        let path = evaluated
-            .study
-            .path
-            .parent()
-            .unwrap_or_else(|| Path::new("."))
-            .join(logo);
-        // Bounded like the check's 2 MiB test: the check read the size from the metadata, which
-        // a device or a growing file does not honour.
-        let shown = path.display().to_string();
-        let bytes =
-            crate::study::load::read_limited(&path, 2 * 1024 * 1024, &shown).map_err(|d| {
-                let cause = d.0.first().map(|d| d.problem.clone()).unwrap_or_default();
-                ReportError::write(&path, cause)
-            })?;
-        files.push((name, bytes));
+        files.push((name, bytes.clone()));
     }
     Ok(files)
 }

@@ -41,6 +41,7 @@ impl Checker<'_> {
 
 /// Checks a parsed study file and builds the `Study`.
 pub fn study(
+    files: &dyn crate::files::Files,
     path: &Path,
     file_name: &str,
     text: &str,
@@ -70,17 +71,19 @@ pub fn study(
             Some("expected the approval date as YYYY-MM-DD".into()),
         );
     }
+    let mut logo_bytes = None;
     if let Some(logo) = file.report.as_ref().and_then(|r| r.logo.as_ref()) {
         let full = path.parent().unwrap_or_else(|| Path::new(".")).join(logo);
-        if let Err(why) = check_logo(&full) {
-            c.report(
+        match read_logo(files, &full) {
+            Ok(bytes) => logo_bytes = Some(bytes),
+            Err(why) => c.report(
                 &FieldPath::of(&["report", "logo"]),
                 format!("the logo `{logo}` {why}"),
                 Some(format!(
                     "expected a PNG, JPEG or SVG image file of at most 2 MiB at {}",
-                    full.display()
+                    files.show(&full)
                 )),
-            );
+            ),
         }
     }
     if file.study.source_reference.is_some()
@@ -162,6 +165,7 @@ pub fn study(
         protocol: file.protocol,
         planning,
         lock: None,
+        logo: logo_bytes,
     })
 }
 
@@ -878,25 +882,26 @@ fn check_printable(c: &mut Checker<'_>, value: &Value, at: &FieldPath) {
 /// Largest logo accepted (bytes).
 pub const MAX_LOGO_BYTES: u64 = 2 * 1024 * 1024;
 
-/// Checks that a logo is a regular file of at most [`MAX_LOGO_BYTES`] whose first bytes are a
-/// PNG or JPEG signature or SVG markup, the formats typst embeds; `Err` says what is wrong.
-/// Only regular files are opened: a FIFO would block and a device such as /dev/zero never ends.
-pub fn check_logo(path: &Path) -> Result<(), String> {
-    let meta = std::fs::metadata(path).map_err(|_| "cannot be read".to_string())?;
-    if !meta.is_file() {
-        return Err("is not a regular file (a folder, pipe or device)".into());
-    }
-    if meta.len() > MAX_LOGO_BYTES {
-        return Err(format!("is {} bytes", meta.len()));
-    }
-    let mut head = Vec::new();
-    std::fs::File::open(path)
-        .and_then(|f| std::io::Read::read_to_end(&mut std::io::Read::take(f, 512), &mut head))
-        .map_err(|_| "cannot be read".to_string())?;
-    if image_kind(&head).is_none() {
+/// Reads a logo through `files` and checks that it is a regular file of at most
+/// [`MAX_LOGO_BYTES`] whose first bytes are a PNG or JPEG signature or SVG markup, the formats
+/// typst embeds; `Err` says what is wrong. The bytes read here are the ones the report embeds,
+/// so a logo changed between check and typesetting cannot slip through unchecked.
+pub fn read_logo(files: &dyn crate::files::Files, path: &Path) -> Result<Vec<u8>, String> {
+    use crate::files::ReadError;
+    let bytes = files.read(path, MAX_LOGO_BYTES).map_err(|e| match e {
+        ReadError::Folder | ReadError::NotRegular => {
+            "is not a regular file (a folder, pipe or device)".to_string()
+        }
+        ReadError::TooLarge {
+            size: Some(size), ..
+        } => format!("is {size} bytes"),
+        ReadError::TooLarge { size: None, limit } => format!("is more than {limit} bytes"),
+        _ => "cannot be read".to_string(),
+    })?;
+    if image_kind(&bytes[..bytes.len().min(512)]).is_none() {
         return Err("is not a PNG, JPEG or SVG image (judged by its first bytes)".into());
     }
-    Ok(())
+    Ok(bytes)
 }
 
 /// The image format of a file from its first bytes: PNG (RFC 2083 signature), JPEG (SOI

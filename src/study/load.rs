@@ -8,9 +8,9 @@ use std::path::Path;
 use sha2::{Digest, Sha256};
 
 use super::diagnostic::{Diagnostic, Diagnostics, FieldPath};
-use crate::files::{Disk, Files};
 use super::model::StudyFile;
 use super::{Study, check, schema};
+use crate::files::{Disk, Files};
 
 /// Largest study file accepted, in bytes (a study of the largest design is far smaller).
 pub const MAX_STUDY_BYTES: u64 = 4 * 1024 * 1024;
@@ -33,6 +33,7 @@ pub fn load_from(files: &dyn Files, path: &Path) -> Result<Study, Diagnostics> {
         return parse(&text, &file_name)
             .and_then(|study_file| {
                 check::study(
+                    &crate::files::Disk,
                     Path::new("./<stdin>"),
                     &file_name,
                     &text,
@@ -46,7 +47,16 @@ pub fn load_from(files: &dyn Files, path: &Path) -> Result<Study, Diagnostics> {
     let bytes = read(files, path, MAX_STUDY_BYTES, &file_name)?;
     let text = decode(&bytes, &file_name)?;
     parse(&text, &file_name)
-        .and_then(|study_file| check::study(path, &file_name, &text, sha256_hex(&bytes), study_file))
+        .and_then(|study_file| {
+            check::study(
+                files,
+                path,
+                &file_name,
+                &text,
+                sha256_hex(&bytes),
+                study_file,
+            )
+        })
         .map_err(|d| d.with_source(&file_name, &text))
 }
 

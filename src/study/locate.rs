@@ -128,7 +128,9 @@ impl<'a> Locator<'a> {
                 Children::Mapping(map) => {
                     for (k, v) in map {
                         if k.start == target || v.start == target || contains(v, target) {
-                            let Some(key) = k.key_text() else { break 'descend };
+                            let Some(key) = k.key_text() else {
+                                break 'descend;
+                            };
                             path.push(Segment::Key(key.to_string()));
                             if k.start == target || v.start == target {
                                 break 'descend;

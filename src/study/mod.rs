@@ -98,6 +98,8 @@ pub struct Study {
     pub planning: serde_json::Value,
     /// The protocol lock, read and checked against its own hash (set by `pipeline::plan`).
     pub lock: Option<crate::protocol::Lock>,
+    /// The logo's bytes as checked (`report.logo`), embedded by the report as read here.
+    pub logo: Option<Vec<u8>>,
 }
 
 /// A factor with its two levels resolved.
