@@ -266,4 +266,12 @@ fn main() {
             });
         }
     }
+    // (d) The inputs the fuzz runs found slow once (fuzz/artifacts-fixed): the study with 1,024
+    // inline result rows took a minute before its fix; the smoke test replays it for panics
+    // only, so its time is watched here.
+    let slow = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("fuzz/artifacts-fixed/study_loader/inline-results-1024-runs.yaml");
+    bench.case("fuzz-fixed/evaluate/inline-results-1024-runs", 1024, || {
+        pipeline::evaluate(&slow).is_ok()
+    });
 }

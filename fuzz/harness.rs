@@ -1,5 +1,5 @@
 //! The fuzz harnesses, shared by the cargo-fuzz targets in `fuzz_targets/` and by the stable
-//! smoke test `tests/fuzz_smoke.rs`, so that the committed corpus is replayed by `cargo test`
+//! smoke test `tests/suite/fuzz_smoke.rs`, so that the committed corpus is replayed by `cargo test`
 //! through exactly the code the long fuzz runs exercised.
 //!
 //! Every harness takes arbitrary bytes and must return normally: an error from plateau is a

@@ -1,11 +1,9 @@
 //! plateau among the tools labs already use: results files as spreadsheets and instruments
 //! in European locales save them (separators, decimal commas, encodings).
 
-mod common;
-
 use std::path::{Path, PathBuf};
 
-use common::{json_of, plateau};
+use crate::common::{json_of, plateau};
 
 const STUDY: &str = "schema: 1
 study:
@@ -166,7 +164,7 @@ fn a_bad_number_names_the_dialect_it_was_read_with() {
 fn example_copy(dir: &Path, name: &str) -> PathBuf {
     let target = dir.join(name);
     std::fs::create_dir_all(&target).unwrap();
-    for entry in std::fs::read_dir(common::example(name)).unwrap() {
+    for entry in std::fs::read_dir(crate::common::example(name)).unwrap() {
         let entry = entry.unwrap();
         if entry.file_type().unwrap().is_file() {
             std::fs::copy(entry.path(), target.join(entry.file_name())).unwrap();

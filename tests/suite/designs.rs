@@ -1,9 +1,7 @@
 //! Designs through the binary: what each column estimates, run sheets and their round trip,
 //! and the seeded run order.
 
-mod common;
-
-use common::{example, fixture, json_of, plateau};
+use crate::common::{example, fixture, json_of, plateau};
 
 #[test]
 fn in_the_half_fraction_with_i_equal_abc_the_ab_column_is_reported_as_c() {

@@ -1,10 +1,8 @@
 //! Many studies at once: batch reports, staleness, skipping unchanged studies.
 
-mod common;
-
 use std::path::Path;
 
-use common::{example, plateau};
+use crate::common::{example, plateau};
 
 /// Copies the example studies into `dir` (each in its own folder) and returns their paths.
 fn dossier(dir: &Path) -> Vec<std::path::PathBuf> {
@@ -199,7 +197,7 @@ fn status_calls_a_no_pdf_report_current_and_tracks_included_templates() {
     // choice: it is current.
     let stub = dir.path().join("typst");
     std::fs::write(&stub, "#!/bin/sh\necho 'typst 0.15.1 (stub)'\n").unwrap();
-    common::make_executable(&stub);
+    crate::common::make_executable(&stub);
     let run = plateau(&["status", "--typst"])
         .arg_path(&stub)
         .arg("--templates")

@@ -2,11 +2,9 @@
 //! the reference cases of `plateau verify` (verification/cases/) do not already pin down.
 //! Numbers are checked by hand from the printed data (each test says how).
 
-mod common;
-
 use std::path::PathBuf;
 
-use common::{json_of, plateau};
+use crate::common::{json_of, plateau};
 
 /// A 2² study of one assay response with `extra` YAML appended and the four runs' values.
 fn study(dir: &tempfile::TempDir, body: &str) -> PathBuf {
@@ -247,7 +245,7 @@ fn power_of_the_planned_design_matches_the_noncentral_t() {
     // scipy.stats.nct.sf(t_c, 11, 2/SE) + nct.cdf(−t_c, 11, 2/SE), t_c = t.ppf(0.975, 11)
     // (scipy 1.17.1; Lenth, Am. Stat. 55 (2001) 187–193 for the test).
     let run = plateau(&["power", "--json"])
-        .arg_path(&common::example("hplc-assay/study.yaml"))
+        .arg_path(&crate::common::example("hplc-assay/study.yaml"))
         .ok();
     let doc = json_of(&run.stdout);
     let assay = &doc["responses"][0];
@@ -413,9 +411,10 @@ fn conclusion_of(path: &std::path::Path, dir: &tempfile::TempDir, name: &str) ->
 fn a_relevant_interaction_makes_the_chapter_conclude_not_robust() {
     // verification/cases/interaction-verdict.yaml: a full 2³ whose only relevant column is
     // A×B; its study part is written out and reported.
-    let case =
-        std::fs::read_to_string(common::root().join("verification/cases/interaction-verdict.yaml"))
-            .unwrap();
+    let case = std::fs::read_to_string(
+        crate::common::root().join("verification/cases/interaction-verdict.yaml"),
+    )
+    .unwrap();
     let study_text: String = case
         .split("\nstudy:\n")
         .nth(1)
@@ -455,7 +454,7 @@ fn no_example_conclusion_has_a_known_wording_fault() {
     .enumerate()
     {
         let text = conclusion_of(
-            &common::example(&format!("{example}/study.yaml")),
+            &crate::common::example(&format!("{example}/study.yaml")),
             &dir,
             &format!("r{i}"),
         );

@@ -9,8 +9,6 @@
 //!   percent effect goes from −2.305 % (relevant) to −1.804 % (not relevant);
 //! - every other column has two of the changed runs at each level, so no other effect moves.
 
-mod common;
-
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
@@ -22,7 +20,7 @@ const FIXTURE: &str = "diff-hplc-rerun";
 /// A folder with the study and the given results file as `results.csv`.
 fn version(dir: &Path, results: &str) -> PathBuf {
     std::fs::create_dir_all(dir).unwrap();
-    let src = common::fixture(FIXTURE);
+    let src = crate::common::fixture(FIXTURE);
     std::fs::copy(src.join("study.yaml"), dir.join("study.yaml")).unwrap();
     std::fs::copy(src.join(results), dir.join("results.csv")).unwrap();
     dir.join("study.yaml")
@@ -413,55 +411,60 @@ fn problems_of_an_old_revision_name_the_revision_not_the_copy() {
     assert_eq!(first.file, "HEAD~1:s/study.yaml", "{problems}");
 }
 
-#[test]
-fn the_change_summary_pdf_shows_the_flipped_verdict() {
-    let typst = plateau::report::typst::find(Some(&common::typst_binary())).unwrap();
-    let dir = tempfile::tempdir().unwrap();
-    let old = version(&dir.path().join("old"), "results.csv");
-    let new = version(&dir.path().join("new"), "results-rerun.csv");
-    let d = diff_of(&old, &new).with_labels("first run", "re-run");
-    let out = dir.path().join("change.pdf");
-    diff::write_pdf(&d, &typst, &out, false).unwrap();
-    let text = common::pdf_text(&out);
-    assert!(text.contains("RS-2026-014"), "{text}");
-    assert!(
-        text.contains(&d.old.sha256) && text.contains(&d.new.sha256),
-        "{text}"
-    );
-    let verdict_line = text
-        .lines()
-        .find(|l| l.contains("relevant") && l.contains("ph"))
-        .unwrap_or_else(|| panic!("no verdict row:\n{text}"));
-    assert!(
-        verdict_line.contains("yes") && verdict_line.contains("no"),
-        "{verdict_line}"
-    );
-    assert!(
-        text.lines()
-            .any(|l| l.contains("robust") && l.contains("no") && l.contains("yes")),
-        "{text}"
-    );
-    assert!(
-        text.contains("Reviewed by") && text.contains("Approved by"),
-        "{text}"
-    );
-    assert!(text.contains("qualified staff"), "{text}");
-    // No staging folder is left behind.
-    let left: Vec<_> = std::fs::read_dir(dir.path())
-        .unwrap()
-        .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
-        .filter(|n| n.starts_with(".diff"))
-        .collect();
-    assert!(left.is_empty(), "{left:?}");
-}
+/// The behaviours that need typst 0.15: they typeset and read the PDF.
+mod typeset {
+    use super::*;
 
-#[test]
-fn the_change_summary_pdf_of_identical_files_says_no_changes() {
-    let typst = plateau::report::typst::find(Some(&common::typst_binary())).unwrap();
-    let dir = tempfile::tempdir().unwrap();
-    let a = version(&dir.path().join("a"), "results.csv");
-    let d = diff_of(&a, &a);
-    let out = dir.path().join("same.pdf");
-    diff::write_pdf(&d, &typst, &out, false).unwrap();
-    assert!(common::pdf_text(&out).contains("No changes"));
+    #[test]
+    fn the_change_summary_pdf_of_identical_files_says_no_changes() {
+        let typst = plateau::report::typst::find(Some(&crate::common::typst_binary())).unwrap();
+        let dir = tempfile::tempdir().unwrap();
+        let a = version(&dir.path().join("a"), "results.csv");
+        let d = diff_of(&a, &a);
+        let out = dir.path().join("same.pdf");
+        diff::write_pdf(&d, &typst, &out, false).unwrap();
+        assert!(crate::common::pdf_text(&out).contains("No changes"));
+    }
+
+    #[test]
+    fn the_change_summary_pdf_shows_the_flipped_verdict() {
+        let typst = plateau::report::typst::find(Some(&crate::common::typst_binary())).unwrap();
+        let dir = tempfile::tempdir().unwrap();
+        let old = version(&dir.path().join("old"), "results.csv");
+        let new = version(&dir.path().join("new"), "results-rerun.csv");
+        let d = diff_of(&old, &new).with_labels("first run", "re-run");
+        let out = dir.path().join("change.pdf");
+        diff::write_pdf(&d, &typst, &out, false).unwrap();
+        let text = crate::common::pdf_text(&out);
+        assert!(text.contains("RS-2026-014"), "{text}");
+        assert!(
+            text.contains(&d.old.sha256) && text.contains(&d.new.sha256),
+            "{text}"
+        );
+        let verdict_line = text
+            .lines()
+            .find(|l| l.contains("relevant") && l.contains("ph"))
+            .unwrap_or_else(|| panic!("no verdict row:\n{text}"));
+        assert!(
+            verdict_line.contains("yes") && verdict_line.contains("no"),
+            "{verdict_line}"
+        );
+        assert!(
+            text.lines()
+                .any(|l| l.contains("robust") && l.contains("no") && l.contains("yes")),
+            "{text}"
+        );
+        assert!(
+            text.contains("Reviewed by") && text.contains("Approved by"),
+            "{text}"
+        );
+        assert!(text.contains("qualified staff"), "{text}");
+        // No staging folder is left behind.
+        let left: Vec<_> = std::fs::read_dir(dir.path())
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+            .filter(|n| n.starts_with(".diff"))
+            .collect();
+        assert!(left.is_empty(), "{left:?}");
+    }
 }

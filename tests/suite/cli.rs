@@ -1,9 +1,7 @@
 //! End-to-end behaviour of the `plateau` binary: reference cases through load → analyse, the
 //! analysis document, the report folder, escaping, and the typesetter's failure modes.
 
-mod common;
-
-use common::{example, fixture, json_of, pdf_text, plateau, typst_binary};
+use crate::common::{example, fixture, json_of, pdf_text, plateau, typst_binary};
 
 #[test]
 fn pilot_plant_effects_of_box_hunter_hunter_come_out_of_a_yaml_study() {
@@ -95,7 +93,7 @@ fn check_prints_ok_lines_for_a_valid_study() {
 fn schema_command_prints_the_shipped_schema() {
     let run = plateau(&["schema"]).ok();
     let shipped =
-        std::fs::read_to_string(common::root().join("schemas/study.schema.json")).unwrap();
+        std::fs::read_to_string(crate::common::root().join("schemas/study.schema.json")).unwrap();
     assert_eq!(run.stdout, shipped);
     assert!(
         json_of(&run.stdout)["$schema"]
@@ -181,7 +179,7 @@ fn a_typesetter_of_the_wrong_version_is_refused_with_exit_3() {
     let dir = tempfile::tempdir().unwrap();
     let fake = dir.path().join("typst");
     std::fs::write(&fake, "#!/bin/sh\necho 'typst 0.11.0 (deadbeef)'\n").unwrap();
-    common::make_executable(&fake);
+    crate::common::make_executable(&fake);
     let run = plateau(&["report", "--typst"])
         .arg_path(&fake)
         .arg("-o")
@@ -207,7 +205,7 @@ fn a_failing_typesetter_keeps_the_previous_report_and_exits_3() {
         "#!/bin/sh\nif [ \"$1\" = --version ]; then echo 'typst 0.15.1 (stub)'; exit 0; fi\necho 'report.typ:1:1: error: stub failure' >&2\nexit 1\n",
     )
     .unwrap();
-    common::make_executable(&fake);
+    crate::common::make_executable(&fake);
     let run = plateau(&["report", "--typst"])
         .arg_path(&fake)
         .arg("-o")
@@ -221,80 +219,6 @@ fn a_failing_typesetter_keeps_the_previous_report_and_exits_3() {
         2,
         "only r/ and the stub"
     );
-}
-
-#[test]
-fn the_example_report_pdf_shows_effects_verdicts_and_the_conclusion() {
-    let typst = typst_binary();
-    let dir = tempfile::tempdir().unwrap();
-    let out = dir.path().join("r");
-    plateau(&["report", "--typst"])
-        .arg_path(&typst)
-        .arg("-o")
-        .arg_path(&out)
-        .arg_path(&example("hplc-assay/study.yaml"))
-        .ok();
-    let text = pdf_text(&out.join("report.pdf"));
-    let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
-    // Effects as computed (ph = −2.30 % label claim, −2.30 %), verdicts, conclusion, caution.
-    assert!(flat.contains("−2.30"), "{flat}");
-    assert!(flat.contains("Beyond the acceptance limit: ph."), "{flat}");
-    assert!(
-        flat.contains("Mobile-phase pH exceeded the limit with −2.30 % label claim (−2.30 %)."),
-        "{flat}"
-    );
-    assert!(
-        flat.contains("The method is not robust over the tested ranges: Mobile-phase pH changes Assay beyond the limit"),
-        "{flat}"
-    );
-    assert!(
-        flat.contains("must be reviewed and approved by qualified staff"),
-        "{flat}"
-    );
-    assert!(flat.contains("typst 0.15."), "{flat}");
-}
-
-#[test]
-fn study_text_is_printed_literally_never_run() {
-    let typst = typst_binary();
-    let dir = tempfile::tempdir().unwrap();
-    let original = std::fs::read_to_string(example("hplc-assay/study.yaml")).unwrap();
-    let hostile =
-        r#"Tricky # $ * _ @ < > [ ] \ ~ / #read("/etc/passwd") // not a comment /* nor this */"#;
-    let text = original
-        .replace(
-            "title: Robustness of the RP-HPLC assay of tarvenolide in 50 mg film-coated tablets",
-            &format!("title: '{hostile}'"),
-        )
-        .replace(
-            "notes: |\n",
-            "notes: |\n  $x^2$ `raw` = heading? - list? 1. enum? #import \"@preview/x:0.1.0\": *\n",
-        );
-    std::fs::write(dir.path().join("study.yaml"), text).unwrap();
-    std::fs::copy(
-        example("hplc-assay/results.csv"),
-        dir.path().join("results.csv"),
-    )
-    .unwrap();
-    let out = dir.path().join("r");
-    plateau(&["report", "--typst"])
-        .arg_path(&typst)
-        .arg("-o")
-        .arg_path(&out)
-        .arg_path(&dir.path().join("study.yaml"))
-        .ok();
-    let pdf = pdf_text(&out.join("report.pdf"));
-    let flat = pdf.split_whitespace().collect::<Vec<_>>().join(" ");
-    let hostile_flat = hostile.split_whitespace().collect::<Vec<_>>().join(" ");
-    assert!(
-        flat.contains(&hostile_flat),
-        "title not literal in:\n{flat}"
-    );
-    assert!(
-        flat.contains(r#"$x^2$ `raw` = heading? - list? 1. enum? #import "@preview/x:0.1.0": *"#),
-        "notes not literal in:\n{flat}"
-    );
-    assert!(!flat.contains("root:x:0:0"), "a file was read");
 }
 
 #[test]
@@ -389,4 +313,84 @@ fn diff_rev_reads_a_study_with_a_logo_as_committed() {
     std::fs::write(&study, text.replace("title:", "title: Revised")).unwrap();
     let run = plateau(&["diff", "--rev", "HEAD"]).arg_path(&study).ok();
     assert!(run.stdout.contains("Revised"), "{}", run.stdout);
+}
+
+/// The behaviours that need typst 0.15: they typeset and read the PDF.
+mod typeset {
+    use super::*;
+
+    #[test]
+    fn study_text_is_printed_literally_never_run() {
+        let typst = typst_binary();
+        let dir = tempfile::tempdir().unwrap();
+        let original = std::fs::read_to_string(example("hplc-assay/study.yaml")).unwrap();
+        let hostile = r#"Tricky # $ * _ @ < > [ ] \ ~ / #read("/etc/passwd") // not a comment /* nor this */"#;
+        let text = original
+        .replace(
+            "title: Robustness of the RP-HPLC assay of tarvenolide in 50 mg film-coated tablets",
+            &format!("title: '{hostile}'"),
+        )
+        .replace(
+            "notes: |\n",
+            "notes: |\n  $x^2$ `raw` = heading? - list? 1. enum? #import \"@preview/x:0.1.0\": *\n",
+        );
+        std::fs::write(dir.path().join("study.yaml"), text).unwrap();
+        std::fs::copy(
+            example("hplc-assay/results.csv"),
+            dir.path().join("results.csv"),
+        )
+        .unwrap();
+        let out = dir.path().join("r");
+        plateau(&["report", "--typst"])
+            .arg_path(&typst)
+            .arg("-o")
+            .arg_path(&out)
+            .arg_path(&dir.path().join("study.yaml"))
+            .ok();
+        let pdf = pdf_text(&out.join("report.pdf"));
+        let flat = pdf.split_whitespace().collect::<Vec<_>>().join(" ");
+        let hostile_flat = hostile.split_whitespace().collect::<Vec<_>>().join(" ");
+        assert!(
+            flat.contains(&hostile_flat),
+            "title not literal in:\n{flat}"
+        );
+        assert!(
+            flat.contains(
+                r#"$x^2$ `raw` = heading? - list? 1. enum? #import "@preview/x:0.1.0": *"#
+            ),
+            "notes not literal in:\n{flat}"
+        );
+        assert!(!flat.contains("root:x:0:0"), "a file was read");
+    }
+
+    #[test]
+    fn the_example_report_pdf_shows_effects_verdicts_and_the_conclusion() {
+        let typst = typst_binary();
+        let dir = tempfile::tempdir().unwrap();
+        let out = dir.path().join("r");
+        plateau(&["report", "--typst"])
+            .arg_path(&typst)
+            .arg("-o")
+            .arg_path(&out)
+            .arg_path(&example("hplc-assay/study.yaml"))
+            .ok();
+        let text = pdf_text(&out.join("report.pdf"));
+        let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
+        // Effects as computed (ph = −2.30 % label claim, −2.30 %), verdicts, conclusion, caution.
+        assert!(flat.contains("−2.30"), "{flat}");
+        assert!(flat.contains("Beyond the acceptance limit: ph."), "{flat}");
+        assert!(
+            flat.contains("Mobile-phase pH exceeded the limit with −2.30 % label claim (−2.30 %)."),
+            "{flat}"
+        );
+        assert!(
+        flat.contains("The method is not robust over the tested ranges: Mobile-phase pH changes Assay beyond the limit"),
+        "{flat}"
+    );
+        assert!(
+            flat.contains("must be reviewed and approved by qualified staff"),
+            "{flat}"
+        );
+        assert!(flat.contains("typst 0.15."), "{flat}");
+    }
 }

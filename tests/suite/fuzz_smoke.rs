@@ -3,26 +3,17 @@
 //! stable toolchain and without libFuzzer.
 //!
 //! The long fuzz runs happen outside the test suite (README, "Fuzzing"); this test keeps what
-//! they found from coming back, in a few seconds of `cargo test`.
+//! they found from coming back, in a few seconds of `cargo test`. How long the once-slow inputs
+//! take is measured by the benchmark (`cargo bench --bench analysis -- fuzz-fixed`), not asserted
+//! here.
 
-#[path = "../fuzz/harness.rs"]
+#[path = "../../fuzz/harness.rs"]
 mod harness;
 
 use std::panic::{AssertUnwindSafe, catch_unwind};
 use std::path::{Path, PathBuf};
-use std::time::{Duration, Instant};
 
 use harness::Reached;
-
-/// Longest one input may take. The fuzz targets run with `-timeout=10` in an optimised build;
-/// the unoptimised test build is several times slower (the billion-laughs seed takes about 5 s
-/// there), so it gets 30 s: still far below the minute the quadratic inline-results case took
-/// before its fix (`artifacts-fixed/study_loader/inline-results-1024-runs.yaml`).
-const PER_INPUT: Duration = if cfg!(debug_assertions) {
-    Duration::from_secs(30)
-} else {
-    Duration::from_secs(10)
-};
 
 /// Committed corpus size limits (the corpus is a seed set, not a fuzzing run's output).
 const MAX_CORPUS_FILES: usize = 200;
@@ -41,7 +32,7 @@ fn inputs(target: &str) -> Vec<PathBuf> {
     files
 }
 
-/// Runs every input through `harness`; lists every input that panicked or ran too long, and
+/// Runs every input through `harness`; lists every input that panicked, and
 /// checks that at least one input got as far as `deepest` (a harness that refuses everything
 /// would otherwise pass).
 fn replay(target: &str, harness: fn(&[u8]) -> Reached, deepest: Reached) {
@@ -55,18 +46,13 @@ fn replay(target: &str, harness: fn(&[u8]) -> Reached, deepest: Reached) {
     let mut stages = std::collections::BTreeMap::<Reached, usize>::new();
     for file in &files {
         let bytes = std::fs::read(file).unwrap();
-        let start = Instant::now();
         let outcome = catch_unwind(AssertUnwindSafe(|| harness(&bytes)));
-        let elapsed = start.elapsed();
         match outcome {
             Ok(reached) => {
                 furthest = furthest.max(reached);
                 *stages.entry(reached).or_default() += 1;
             }
             Err(_) => failures.push(format!("{}: panicked", file.display())),
-        }
-        if elapsed > PER_INPUT {
-            failures.push(format!("{}: took {elapsed:?}", file.display()));
         }
     }
     assert!(

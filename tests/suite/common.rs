@@ -1,5 +1,4 @@
 //! A small builder over the real `plateau` executable, shared by the integration tests.
-#![allow(dead_code)]
 
 use std::path::{Path, PathBuf};
 use std::process::Command;

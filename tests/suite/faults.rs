@@ -2,11 +2,9 @@
 //! text that tries to make the typesetter do something. Each leaves the previous good report
 //! complete, exits non-zero with a clear message, and never runs the text.
 
-mod common;
-
 use std::path::Path;
 
-use common::{example, pdf_text, plateau, typst_binary};
+use crate::common::{example, pdf_text, plateau, typst_binary};
 
 fn copy_example(dir: &Path) -> std::path::PathBuf {
     for f in ["study.yaml", "results.csv"] {
@@ -59,7 +57,7 @@ fn a_run_killed_during_typesetting_leaves_the_previous_report_complete() {
         "#!/bin/sh\nif [ \"$1\" = --version ]; then echo 'typst 0.15.1 (stub)'; exit 0; fi\nsleep 30\n",
     )
     .unwrap();
-    common::make_executable(&stub);
+    crate::common::make_executable(&stub);
     let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_plateau"))
         .args(["report", "--force", "--typst"])
         .arg(&stub)
@@ -114,66 +112,6 @@ fn common_files(dir: &Path) -> Vec<(String, Vec<u8>)> {
     out
 }
 
-#[test]
-fn every_free_text_field_is_printed_literally_and_never_run() {
-    let typst = typst_binary();
-    let dir = tempfile::tempdir().unwrap();
-    // Typst code in every kind of free text: code, import, math, raw, comments, brackets.
-    let hostile =
-        r#"X#read("/etc/passwd") #import "@preview/a:0.1.0" $x^2$ ] // c /* d ``` raw ```"#;
-    let q = format!("'{}'", hostile.replace('\'', "''"));
-    // Units are at most 40 characters: a shorter hostile one.
-    let u = "'#u $m$ [ ] // /* `r`'";
-    let study = format!(
-        r#"schema: 1
-study: {{ id: T-1, title: {q}, method: {q}, analyst: {q}, date: 2026-01-01, objective: {q} }}
-factors:
-  - {{ id: temp, name: {q}, unit: {u}, nominal: 35, delta: 2, justification: {q} }}
-  - {{ id: lot, name: Column lot, levels: [{q}, 'B #2'] }}
-design: {{ kind: full-factorial, center-points: 2 }}
-responses:
-  - {{ id: assay, name: {q}, unit: {u} }}
-acceptance:
-  - {{ response: assay, effect-limit: 2, basis: {q} }}
-results:
-  runs:
-    - {{ run: 1, assay: 99.1 }}
-    - {{ run: 2, assay: 99.5 }}
-    - {{ run: 3, assay: 100.2 }}
-    - {{ run: 4, assay: 100.0 }}
-    - {{ run: 5, assay: 99.8 }}
-    - {{ run: 6, assay: 99.7 }}
-excluded: []
-report: {{ header: {q}, footer: {q} }}
-notes: {q}
-"#
-    );
-    std::fs::write(dir.path().join("study.yaml"), &study).unwrap();
-    let out = dir.path().join("r");
-    plateau(&["report", "--typst"])
-        .arg_path(&typst)
-        .arg("-o")
-        .arg_path(&out)
-        .arg_path(&dir.path().join("study.yaml"))
-        .ok();
-    let pdf = pdf_text(&out.join("report.pdf"));
-    let flat = pdf.split_whitespace().collect::<Vec<_>>().join(" ");
-    assert!(!flat.contains("root:x:0:0"), "a file was read");
-    let marker = r#"X#read("/etc/passwd") #import "@preview/a:0.1.0" $x^2$ ] // c /* d"#;
-    // Title, method, analyst, objective, factor name, justification, level name, response
-    // name, basis, header, footer, notes: each at least once.
-    let seen = flat.matches(marker).count();
-    assert!(
-        seen >= 12,
-        "the hostile text appears {seen} times literally in:\n{flat}"
-    );
-    assert!(
-        flat.contains("#u $m$ [ ] // /* `r`"),
-        "units not literal in:\n{flat}"
-    );
-    assert!(flat.contains("B #2"), "{flat}");
-}
-
 /// A 2^3 study (eight runs, the four values repeated) judged by Lenth's method.
 fn tiny_study(values: [f64; 4], percent_of: &str) -> String {
     format!(
@@ -201,7 +139,7 @@ fn analyse(text: &str) -> serde_json::Value {
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("s.yaml");
     std::fs::write(&path, text).unwrap();
-    common::json_of(&plateau(&["analyze", "--json"]).arg_path(&path).ok().stdout)
+    crate::common::json_of(&plateau(&["analyze", "--json"]).arg_path(&path).ok().stdout)
 }
 
 #[test]
@@ -303,7 +241,7 @@ fn stub_typst(dir: &Path, name: &str, body: &str) -> std::path::PathBuf {
         ),
     )
     .unwrap();
-    common::make_executable(&stub);
+    crate::common::make_executable(&stub);
     stub
 }
 
@@ -448,7 +386,7 @@ fn force_replaces_only_a_run_sheet_or_pdf_plateau_could_have_written() {
 
 /// Runs a report with the stub and returns the run; the previous report must be unchanged
 /// and nothing left beside it.
-fn report_with_stub(body: &str, timeout: &str) -> common::Run {
+fn report_with_stub(body: &str, timeout: &str) -> crate::common::Run {
     let dir = tempfile::tempdir().unwrap();
     let study = copy_example(dir.path());
     let out = dir.path().join("r");
@@ -504,7 +442,7 @@ fn a_typesetter_that_hangs_on_its_version_is_stopped_too() {
     let dir = tempfile::tempdir().unwrap();
     let stub = dir.path().join("typst");
     std::fs::write(&stub, "#!/bin/sh\nsleep 600\n").unwrap();
-    common::make_executable(&stub);
+    crate::common::make_executable(&stub);
     let run = plateau(&["report", "--typst-timeout", "1", "--typst"])
         .arg_path(&stub)
         .arg("-o")
@@ -596,37 +534,6 @@ fn a_logo_that_is_a_device_or_not_an_image_is_refused_by_check() {
     // A PNG signature (RFC 2083) is accepted.
     std::fs::write(dir.path().join("zero.png"), b"\x89PNG\r\n\x1a\n rest").unwrap();
     plateau(&["check"]).arg_path(&study).ok();
-}
-
-#[test]
-fn what_check_accepts_the_typesetter_typesets_line_separators_and_a_date_before_1970() {
-    // Both cases pass `plateau check` (tests/bad_inputs); the report must typeset them too.
-    let typst = typst_binary();
-    for case in ["ok-text-line-separators", "ok-date-before-1970"] {
-        let dir = tempfile::tempdir().unwrap();
-        let from = common::root().join("tests/bad_inputs").join(case);
-        for f in ["study.yaml", "results.csv"] {
-            std::fs::copy(from.join(f), dir.path().join(f)).unwrap();
-        }
-        let out = dir.path().join("r");
-        plateau(&["report", "--typst"])
-            .arg_path(&typst)
-            .arg("-o")
-            .arg_path(&out)
-            .arg_path(&dir.path().join("study.yaml"))
-            .ok();
-        let section = std::fs::read_to_string(out.join("section.typ")).unwrap();
-        for sep in ['\u{000B}', '\u{000C}', '\u{0085}', '\u{2028}', '\u{2029}'] {
-            assert!(
-                !section.contains(sep),
-                "{case}: {sep:?} reached the Typst source"
-            );
-        }
-        assert!(
-            pdf_text(&out.join("report.pdf")).contains("Marsh"),
-            "{case}"
-        );
-    }
 }
 
 /// A study with `k` factors `f1..fk` and the given `design:` block.
@@ -801,4 +708,100 @@ fn a_typesetter_named_by_a_relative_path_is_found_for_the_compile_too() {
         .current_dir(dir.path())
         .ok();
     assert!(dir.path().join("r/report.pdf").is_file());
+}
+
+/// The behaviours that need typst 0.15: they typeset and read the PDF.
+mod typeset {
+    use super::*;
+
+    #[test]
+    fn every_free_text_field_is_printed_literally_and_never_run() {
+        let typst = typst_binary();
+        let dir = tempfile::tempdir().unwrap();
+        // Typst code in every kind of free text: code, import, math, raw, comments, brackets.
+        let hostile =
+            r#"X#read("/etc/passwd") #import "@preview/a:0.1.0" $x^2$ ] // c /* d ``` raw ```"#;
+        let q = format!("'{}'", hostile.replace('\'', "''"));
+        // Units are at most 40 characters: a shorter hostile one.
+        let u = "'#u $m$ [ ] // /* `r`'";
+        let study = format!(
+            r#"schema: 1
+study: {{ id: T-1, title: {q}, method: {q}, analyst: {q}, date: 2026-01-01, objective: {q} }}
+factors:
+  - {{ id: temp, name: {q}, unit: {u}, nominal: 35, delta: 2, justification: {q} }}
+  - {{ id: lot, name: Column lot, levels: [{q}, 'B #2'] }}
+design: {{ kind: full-factorial, center-points: 2 }}
+responses:
+  - {{ id: assay, name: {q}, unit: {u} }}
+acceptance:
+  - {{ response: assay, effect-limit: 2, basis: {q} }}
+results:
+  runs:
+    - {{ run: 1, assay: 99.1 }}
+    - {{ run: 2, assay: 99.5 }}
+    - {{ run: 3, assay: 100.2 }}
+    - {{ run: 4, assay: 100.0 }}
+    - {{ run: 5, assay: 99.8 }}
+    - {{ run: 6, assay: 99.7 }}
+excluded: []
+report: {{ header: {q}, footer: {q} }}
+notes: {q}
+"#
+        );
+        std::fs::write(dir.path().join("study.yaml"), &study).unwrap();
+        let out = dir.path().join("r");
+        plateau(&["report", "--typst"])
+            .arg_path(&typst)
+            .arg("-o")
+            .arg_path(&out)
+            .arg_path(&dir.path().join("study.yaml"))
+            .ok();
+        let pdf = pdf_text(&out.join("report.pdf"));
+        let flat = pdf.split_whitespace().collect::<Vec<_>>().join(" ");
+        assert!(!flat.contains("root:x:0:0"), "a file was read");
+        let marker = r#"X#read("/etc/passwd") #import "@preview/a:0.1.0" $x^2$ ] // c /* d"#;
+        // Title, method, analyst, objective, factor name, justification, level name, response
+        // name, basis, header, footer, notes: each at least once.
+        let seen = flat.matches(marker).count();
+        assert!(
+            seen >= 12,
+            "the hostile text appears {seen} times literally in:\n{flat}"
+        );
+        assert!(
+            flat.contains("#u $m$ [ ] // /* `r`"),
+            "units not literal in:\n{flat}"
+        );
+        assert!(flat.contains("B #2"), "{flat}");
+    }
+
+    #[test]
+    fn what_check_accepts_the_typesetter_typesets_line_separators_and_a_date_before_1970() {
+        // Both cases pass `plateau check` (tests/bad_inputs); the report must typeset them too.
+        let typst = typst_binary();
+        for case in ["ok-text-line-separators", "ok-date-before-1970"] {
+            let dir = tempfile::tempdir().unwrap();
+            let from = crate::common::root().join("tests/bad_inputs").join(case);
+            for f in ["study.yaml", "results.csv"] {
+                std::fs::copy(from.join(f), dir.path().join(f)).unwrap();
+            }
+            let out = dir.path().join("r");
+            plateau(&["report", "--typst"])
+                .arg_path(&typst)
+                .arg("-o")
+                .arg_path(&out)
+                .arg_path(&dir.path().join("study.yaml"))
+                .ok();
+            let section = std::fs::read_to_string(out.join("section.typ")).unwrap();
+            for sep in ['\u{000B}', '\u{000C}', '\u{0085}', '\u{2028}', '\u{2029}'] {
+                assert!(
+                    !section.contains(sep),
+                    "{case}: {sep:?} reached the Typst source"
+                );
+            }
+            assert!(
+                pdf_text(&out.join("report.pdf")).contains("Marsh"),
+                "{case}"
+            );
+        }
+    }
 }
