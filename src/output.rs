@@ -423,6 +423,37 @@ pub fn write_bytes(dest: &Path, kind: Kind, force: bool, bytes: &[u8]) -> Result
     })
 }
 
+/// Why [`create_new`] wrote nothing.
+#[derive(Debug)]
+pub enum NewFileError {
+    /// A file of that name exists; it is left as it was.
+    Exists,
+    /// The file could not be created or written (a partly written file is removed again).
+    Io(std::io::Error),
+}
+
+/// Writes a file that must not exist yet — a starter study, a schema, exported templates:
+/// files a person edits afterwards, so never replaced. Created exclusively (`create_new`), so
+/// a file that appears meanwhile is not overwritten either; if the write fails, the file this
+/// call created is removed, so no half-written file is left behind.
+pub fn create_new(dest: &Path, bytes: &[u8]) -> Result<(), NewFileError> {
+    let mut file = std::fs::OpenOptions::new()
+        .write(true)
+        .create_new(true)
+        .open(dest)
+        .map_err(|e| match e.kind() {
+            std::io::ErrorKind::AlreadyExists => NewFileError::Exists,
+            _ => NewFileError::Io(e),
+        })?;
+    std::io::Write::write_all(&mut file, bytes)
+        .and_then(|()| file.sync_all())
+        .map_err(|e| {
+            drop(file);
+            let _ = std::fs::remove_file(dest);
+            NewFileError::Io(e)
+        })
+}
+
 /// A CSV cell made safe to open in a spreadsheet: a cell starting with `=`, `+`, `-`, `@`,
 /// tab or carriage return would be run as a formula, so it gets a leading apostrophe
 /// (common practice; OWASP, "CSV Injection"). A plain number such as `-0.25` or `+1e-3` stays
@@ -518,5 +549,26 @@ mod tests {
         assert_ne!(a.path(), b.path());
         drop(a);
         assert!(b.path().is_dir());
+    }
+
+    #[test]
+    fn create_new_writes_a_new_file_and_never_replaces_one() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("study.yaml");
+        create_new(&path, b"first").unwrap();
+        assert_eq!(std::fs::read(&path).unwrap(), b"first");
+        assert!(matches!(
+            create_new(&path, b"second"),
+            Err(NewFileError::Exists)
+        ));
+        assert_eq!(std::fs::read(&path).unwrap(), b"first");
+    }
+
+    #[test]
+    fn create_new_in_a_missing_folder_is_an_io_error_and_leaves_nothing() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("absent/study.yaml");
+        assert!(matches!(create_new(&path, b"x"), Err(NewFileError::Io(_))));
+        assert!(!dir.path().join("absent").exists());
     }
 }
