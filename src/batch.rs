@@ -293,7 +293,7 @@ pub fn status(
                 why.push(format!("{file} is missing"));
             }
         } else if &file_hash(&path) != hash {
-            why.push(format!("{file} was changed after plateau wrote it"));
+            why.push(format!("{file}{EDITED}"));
         }
     }
     if why.is_empty() {
@@ -301,6 +301,93 @@ pub fn status(
     } else {
         Status::Stale(why)
     }
+}
+
+/// The words after a file name in a [`Status::Stale`] reason for a report file changed since
+/// plateau wrote it.
+const EDITED: &str = " was changed after plateau wrote it";
+
+/// What `report` does with a study's report folder.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Decision {
+    /// Write (or rewrite) the report.
+    Write,
+    /// Leave it: it was made from exactly the current inputs.
+    Current,
+    /// Refuse: these files of the report were edited after plateau wrote them, and rewriting
+    /// the folder would lose the edits (delete nothing plateau did not write).
+    Edited(Vec<String>),
+}
+
+/// Whether to write the report of `study` into `dir`: always with `force`; otherwise not when
+/// it is current, and never over files edited by hand.
+pub fn decide(
+    study: &Study,
+    dir: &Path,
+    templates: Option<&Path>,
+    typst_version: &str,
+    force: bool,
+) -> Decision {
+    if force {
+        return Decision::Write;
+    }
+    match status(study, dir, templates, Some(typst_version)) {
+        Status::Current => Decision::Current,
+        Status::Stale(why) => {
+            let edited: Vec<String> = why
+                .iter()
+                .filter_map(|w| w.strip_suffix(EDITED))
+                .map(str::to_string)
+                .collect();
+            if edited.is_empty() {
+                Decision::Write
+            } else {
+                Decision::Edited(edited)
+            }
+        }
+        Status::Missing => Decision::Write,
+    }
+}
+
+/// Runs `work` on every item, `jobs` at a time (default: the number of cores), and calls `done`
+/// as each item finishes, one call at a time (for a progress line); one item's failure never
+/// stops the others. The results are in the order of `items`; `None` only for an item no worker
+/// reached, which a panic in `work` would cause.
+pub fn in_parallel<T: Sync, R: Send>(
+    items: &[T],
+    jobs: Option<usize>,
+    work: impl Fn(&T) -> R + Sync,
+    done: impl Fn(&T, &R) + Sync,
+) -> Vec<Option<R>> {
+    use std::sync::Mutex;
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    let workers = jobs
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+        .clamp(1, 64)
+        .min(items.len());
+    let next = AtomicUsize::new(0);
+    let slots: Mutex<Vec<Option<R>>> = Mutex::new((0..items.len()).map(|_| None).collect());
+    let report = Mutex::new(());
+    std::thread::scope(|scope| {
+        for _ in 0..workers {
+            scope.spawn(|| {
+                loop {
+                    let i = next.fetch_add(1, Ordering::SeqCst);
+                    let Some(item) = items.get(i) else { break };
+                    let result = work(item);
+                    if let Ok(_guard) = report.lock() {
+                        done(item, &result);
+                    }
+                    if let Ok(mut all) = slots.lock()
+                        && let Some(slot) = all.get_mut(i)
+                    {
+                        *slot = Some(result);
+                    }
+                }
+            });
+        }
+    });
+    slots.into_inner().unwrap_or_default()
 }
 
 /// A report folder whose study is gone, emptied or no longer a study file.

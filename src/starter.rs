@@ -39,17 +39,10 @@ impl std::fmt::Display for SchemaWrite {
 /// one of another plateau version that other studies still name, is kept, and the message says
 /// how to proceed. The file is created exclusively, so two runs cannot interleave.
 pub fn write_schema(path: &Path, text: &str) -> Result<SchemaWrite, String> {
-    use std::io::Write;
-    match std::fs::OpenOptions::new()
-        .write(true)
-        .create_new(true)
-        .open(path)
-    {
-        Ok(mut f) => f
-            .write_all(text.as_bytes())
-            .map(|()| SchemaWrite::Written)
-            .map_err(|e| format!("failed to write {} ({e})", path.display())),
-        Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => {
+    use crate::output::{NewFileError, create_new};
+    match create_new(path, text.as_bytes()) {
+        Ok(()) => Ok(SchemaWrite::Written),
+        Err(NewFileError::Exists) => {
             let existing = std::fs::read_to_string(path)
                 .map_err(|e| format!("failed to read {} ({e})", path.display()))?;
             if existing.replace("\r\n", "\n") == text.replace("\r\n", "\n") {
@@ -61,7 +54,7 @@ pub fn write_schema(path: &Path, text: &str) -> Result<SchemaWrite, String> {
                 ))
             }
         }
-        Err(e) => Err(format!("failed to write {} ({e})", path.display())),
+        Err(NewFileError::Io(e)) => Err(format!("failed to write {} ({e})", path.display())),
     }
 }
 

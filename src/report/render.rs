@@ -107,22 +107,12 @@ pub fn export_templates(dir: &Path) -> Result<Vec<PathBuf>, ReportError> {
     std::fs::create_dir_all(dir).map_err(|e| ReportError::write(dir, e))?;
     let mut written = Vec::with_capacity(files.len());
     for (path, text) in files {
-        use std::io::Write;
-        let mut f = std::fs::OpenOptions::new()
-            .write(true)
-            .create_new(true)
-            .open(&path)
-            .map_err(|e| {
-                if e.kind() == std::io::ErrorKind::AlreadyExists {
-                    ReportError::Exists {
-                        path: path.display().to_string(),
-                    }
-                } else {
-                    ReportError::write(&path, e)
-                }
-            })?;
-        f.write_all(text.as_bytes())
-            .map_err(|e| ReportError::write(&path, e))?;
+        crate::output::create_new(&path, text.as_bytes()).map_err(|e| match e {
+            crate::output::NewFileError::Exists => ReportError::Exists {
+                path: path.display().to_string(),
+            },
+            crate::output::NewFileError::Io(e) => ReportError::write(&path, e),
+        })?;
         written.push(path);
     }
     Ok(written)

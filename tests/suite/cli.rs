@@ -315,6 +315,26 @@ fn diff_rev_reads_a_study_with_a_logo_as_committed() {
     assert!(run.stdout.contains("Revised"), "{}", run.stdout);
 }
 
+#[test]
+fn an_error_shows_the_study_line_it_points_into_with_the_field_underlined() {
+    let run = plateau(&["check"])
+        .arg_path(
+            &crate::common::root().join("tests/bad_inputs/acceptance-unknown-response/study.yaml"),
+        )
+        .code(1);
+    let lines: Vec<&str> = run.stderr.lines().collect();
+    let at = lines
+        .iter()
+        .position(|l| l.starts_with("error: ") && l.contains(":28:15: acceptance[0].response:"))
+        .unwrap_or_else(|| panic!("no one-line error for line 28:\n{}", run.stderr));
+    assert_eq!(lines[at + 2], "28 |   - response: assy", "{}", run.stderr);
+    assert!(
+        lines[at + 3].starts_with("   |               ^^^^ "),
+        "the underline sits under `assy`:\n{}",
+        run.stderr
+    );
+}
+
 /// The behaviours that need typst 0.15: they typeset and read the PDF.
 mod typeset {
     use super::*;
