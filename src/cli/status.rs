@@ -66,7 +66,8 @@ pub fn run(args: Args) -> Result<(), Failure> {
             Ok(study) => {
                 // A report made with --no-pdf records typst `none`: it is current when
                 // its inputs are, whatever typst is installed now.
-                let no_pdf = plateau::batch::recorded(&dir).is_some_and(|r| r.typst == "none");
+                let no_pdf =
+                    plateau::report::record::recorded(&dir).is_some_and(|r| r.typst == "none");
                 let version = if no_pdf {
                     Some("none")
                 } else {

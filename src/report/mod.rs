@@ -15,6 +15,7 @@ pub mod format;
 pub mod judging;
 pub mod power;
 pub mod protocol;
+pub mod record;
 pub mod references;
 pub mod render;
 pub mod runsheet;
@@ -140,7 +141,7 @@ pub fn render_revision(
         .map_err(|e| ReportError::write(Path::new("analysis.json"), e))?;
     files.push(("analysis.json".to_string(), (json + "\n").into_bytes()));
     files.extend(tables::csv_files(evaluated));
-    let mut record = crate::batch::inputs(
+    let mut record = record::inputs(
         &evaluated.study,
         options.templates.as_deref(),
         typst_version,
@@ -150,11 +151,8 @@ pub fn render_revision(
         .map(|(name, bytes)| (name.clone(), crate::study::load::sha256_hex(bytes)))
         .collect();
     let record = serde_json::to_string_pretty(&record)
-        .map_err(|e| ReportError::write(Path::new(crate::batch::RECORD), e))?;
-    files.push((
-        crate::batch::RECORD.to_string(),
-        (record + "\n").into_bytes(),
-    ));
+        .map_err(|e| ReportError::write(Path::new(record::RECORD), e))?;
+    files.push((record::RECORD.to_string(), (record + "\n").into_bytes()));
     if let (Some(bytes), Some(name)) = (
         &evaluated.study.logo,
         context::logo_file_name(&evaluated.study),
@@ -206,9 +204,9 @@ fn previous_report(evaluated: &Evaluated, dest: &Path) -> Option<String> {
     let pdf = dest.join("report.pdf");
     let shown = pdf.display().to_string();
     let bytes = crate::study::load::read_limited(&pdf, MAX_PREVIOUS_PDF, &shown).ok()?;
-    let now = crate::batch::inputs(&evaluated.study, None, None);
-    let same_inputs = crate::batch::recorded(dest)
-        .is_some_and(|r| r.study.1 == now.study.1 && r.data == now.data);
+    let now = record::inputs(&evaluated.study, None, None);
+    let same_inputs =
+        record::recorded(dest).is_some_and(|r| r.study.1 == now.study.1 && r.data == now.data);
     if same_inputs {
         let text = std::fs::read_to_string(dest.join("analysis.json")).ok()?;
         let doc: serde_json::Value = serde_json::from_str(&text).ok()?;
@@ -231,7 +229,7 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
         .file_name()
         .map(|n| n.to_string_lossy().to_string())
         .unwrap_or_default();
-    if let Some(other) = crate::batch::recorded(&dest).filter(|r| r.study.0 != own) {
+    if let Some(other) = record::recorded(&dest).filter(|r| r.study.0 != own) {
         return Err(crate::output::OutputError::Occupied {
             path: dest.display().to_string(),
             why: format!(
@@ -266,8 +264,8 @@ pub fn write(evaluated: &Evaluated, options: &Options) -> Result<PathBuf, Report
 /// Adds the typeset PDF's SHA-256 to the input record in the staging folder, so that `status`
 /// tells when report.pdf is edited or replaced after plateau wrote it.
 fn record_pdf(staging: &Path) -> Result<(), ReportError> {
-    let record_path = staging.join(crate::batch::RECORD);
-    let Some(mut record) = crate::batch::recorded(staging) else {
+    let record_path = staging.join(record::RECORD);
+    let Some(mut record) = record::recorded(staging) else {
         return Err(ReportError::write(
             &record_path,
             "the input record cannot be read back",
@@ -276,7 +274,7 @@ fn record_pdf(staging: &Path) -> Result<(), ReportError> {
     let pdf = staging.join("report.pdf");
     record
         .outputs
-        .push(("report.pdf".into(), crate::batch::file_hash(&pdf)));
+        .push(("report.pdf".into(), record::file_hash(&pdf)));
     let text =
         serde_json::to_string_pretty(&record).map_err(|e| ReportError::write(&record_path, e))?;
     std::fs::write(&record_path, text + "\n").map_err(|e| ReportError::write(&record_path, e))
