@@ -3,8 +3,9 @@
 //! conclusion sentences), so a reviewer re-approving a study sees exactly what a re-run moved.
 //!
 //! Both versions go through the normal pipeline unchanged; this module only compares the two
-//! [`Evaluated`] values. An older version kept in git is first written to a temporary folder by
-//! [`load_revision`].
+//! [`crate::pipeline::Evaluated`] values. An older version kept in git is read from the
+//! repository into memory by [`load_revision`] (the study, its results and the files it names,
+//! as committed) and goes through the same pipeline through [`crate::files::InMemory`].
 
 mod compare;
 mod git;
