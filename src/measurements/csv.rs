@@ -67,6 +67,10 @@ pub(super) fn rows(
         .map_err(|d| d.with_source(&name, &text))
 }
 
+/// Builds the diagnostic of one results-file problem: line (if known), column, problem, what
+/// would be valid.
+type Complaint<'a> = dyn Fn(Option<usize>, &str, String, Option<String>) -> Diagnostic + 'a;
+
 /// The rows of the decoded CSV text, matched to the plan.
 fn table(
     study: &Study,
@@ -74,7 +78,7 @@ fn table(
     name: &str,
     text: &str,
     dialect: dialect::Dialect,
-    one: &dyn Fn(Option<usize>, &str, String, Option<String>) -> Diagnostic,
+    one: &Complaint<'_>,
 ) -> Result<Vec<Row>, Diagnostics> {
     let dialect_text = dialect.describe();
     // Line numbers come from byte offsets: the csv crate's own line count is one too low for a
