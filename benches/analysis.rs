@@ -18,7 +18,7 @@ use plateau::analysis::{self, effects};
 use plateau::design::{self, Design, TermMask};
 use plateau::measurements::{self, Measurements};
 use plateau::pipeline;
-use plateau::study::{self, Study};
+use plateau::study::Study;
 
 /// Fewest and most timed repetitions of one case.
 const MIN_REPS: usize = 3;
@@ -139,7 +139,7 @@ results:\n  file: results.csv\n"
 }
 
 fn load_all(path: &Path) -> (Study, Design, Measurements) {
-    let study = study::load(path).unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
+    let study = pipeline::load(path).unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
     let design = design::plan(&study).unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
     let data = measurements::read(&plateau::files::Disk, &study, &design)
         .unwrap_or_else(|d| panic!("{path:?}: {d:?}"));
@@ -224,10 +224,10 @@ fn main() {
             pipeline::evaluate(&path).unwrap()
         });
         bench.case("stage/load/plackett-burman/48", 48, || {
-            study::load(&path).unwrap()
+            pipeline::load(&path).unwrap()
         });
         if bench.wants("stage/plan/plackett-burman/48") {
-            let s = study::load(&path).unwrap();
+            let s = pipeline::load(&path).unwrap();
             bench.case("stage/plan/plackett-burman/48", 48, || {
                 design::plan(&s).unwrap()
             });
@@ -251,12 +251,12 @@ fn main() {
             pipeline::evaluate(&path).unwrap()
         });
         bench.case("stage/load/full-factorial/2^16", 1 << 16, || {
-            study::load(&path).unwrap()
+            pipeline::load(&path).unwrap()
         });
         if bench.wants("stage/plan/full-factorial/2^16")
             || bench.wants("stage/read/full-factorial/2^16")
         {
-            let s = study::load(&path).unwrap();
+            let s = pipeline::load(&path).unwrap();
             bench.case("stage/plan/full-factorial/2^16", 1 << 16, || {
                 design::plan(&s).unwrap()
             });

@@ -49,7 +49,7 @@ pub fn study_loader(data: &[u8]) -> Reached {
         return Reached::Nothing;
     }
     let files = InMemory::new().with("study.yaml", data);
-    let Ok(study) = plateau::study::load::load_from(&files, Path::new("study.yaml")) else {
+    let Ok(study) = plateau::pipeline::load_in(&files, Path::new("study.yaml")) else {
         return Reached::Parsed;
     };
     let Ok(design) = plateau::design::plan(&study) else {

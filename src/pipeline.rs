@@ -27,6 +27,17 @@ pub struct Evaluated {
     pub protocol: Option<ProtocolRecord>,
 }
 
+/// Loads and checks a study file of the working folder (`-`: standard input), with the design
+/// stage's rules for its design request; no protocol lock, no plan.
+pub fn load(path: &Path) -> Result<Study, Diagnostics> {
+    load_in(&Disk, path)
+}
+
+/// [`load`] with the study and the files it names read through `files`.
+pub fn load_in(files: &dyn Files, path: &Path) -> Result<Study, Diagnostics> {
+    study::load::load_from(design::construction::problems, files, path)
+}
+
 /// Checks a study file of the working folder up to its plan (no results needed), including
 /// its protocol lock.
 pub fn plan(path: &Path) -> Result<(Study, Design), Diagnostics> {
@@ -35,7 +46,7 @@ pub fn plan(path: &Path) -> Result<(Study, Design), Diagnostics> {
 
 /// [`plan`] with the study and the files it names read through `files`.
 pub fn plan_in(files: &dyn Files, path: &Path) -> Result<(Study, Design), Diagnostics> {
-    let mut study = study::load::load_from(files, path)?;
+    let mut study = load_in(files, path)?;
     study.lock = crate::protocol::read_lock(files, &study).map_err(|d| in_context(d, &study))?;
     let design = design::plan(&study).map_err(|d| in_context(d, &study))?;
     Ok((study, design))

@@ -27,7 +27,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
         typst: typst_path,
         typst_timeout,
     } = args;
-    let mut s = plateau::study::load(&study)?;
+    let mut s = plateau::pipeline::load(&study)?;
     // The lock the study names is checked when it exists (the first run writes it).
     if plateau::protocol::lock_path(&s).is_some_and(|p| p.exists()) {
         s.lock = plateau::protocol::read_lock(&plateau::files::Disk, &s)?;

@@ -52,7 +52,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
     for file in &files {
         let dir = report::default_dir(file);
         // The protocol lock is checked as `report` would check it.
-        let loaded = plateau::study::load(file).and_then(|mut s| {
+        let loaded = plateau::pipeline::load(file).and_then(|mut s| {
             s.lock = plateau::protocol::read_lock(&plateau::files::Disk, &s)?;
             Ok(s)
         });

@@ -6,6 +6,7 @@
 
 pub mod aliasing;
 pub mod catalogue;
+pub mod construction;
 pub mod fraction;
 pub mod order;
 pub mod plackett_burman;
@@ -162,11 +163,25 @@ pub fn term_cmp(a: TermMask, b: TermMask) -> std::cmp::Ordering {
 
 /// Plans the design of a study.
 pub fn plan(study: &Study) -> Result<Design, Diagnostics> {
-    let design = match study.design.kind {
-        DesignKind::FullFactorial => full_factorial(study),
-        DesignKind::FractionalFactorial | DesignKind::Youden => regular_fraction(study)?,
-        DesignKind::PlackettBurman => plackett_burman(study)?,
-        DesignKind::Explicit => explicit(study)?,
+    use construction::Construction;
+    let ids: Vec<&str> = study.factors.iter().map(|f| f.id.as_str()).collect();
+    let chosen = construction::choose(&study.design, &ids).map_err(|problems| {
+        Diagnostics(
+            problems
+                .into_iter()
+                .map(|p| study.diagnostic(&p.field, p.problem, p.expected))
+                .collect(),
+        )
+    })?;
+    let design = match chosen {
+        Construction::Full => full_factorial(study),
+        Construction::Fraction {
+            fraction,
+            generators,
+            catalogue,
+        } => regular_fraction(study, &fraction, generators, catalogue)?,
+        Construction::PlackettBurman { runs } => plackett_burman(study, runs)?,
+        Construction::Explicit => explicit(study)?,
     };
     check_nominal_placement(study, &design)?;
     Ok(design)
@@ -228,15 +243,13 @@ fn words_text(ids: &[String], word: crate::design::word::SignedWord) -> String {
     )
 }
 
-fn regular_fraction(study: &Study) -> Result<Design, Diagnostics> {
+fn regular_fraction(
+    study: &Study,
+    fraction: &crate::design::fraction::Fraction,
+    generators: Vec<String>,
+    catalogue: Option<String>,
+) -> Result<Design, Diagnostics> {
     let request = &study.design;
-    let Some(fraction) = &request.fraction else {
-        return Err(Diagnostics(vec![study.diagnostic(
-            &FieldPath::of(&["design"]),
-            "internal error: the fraction was not resolved",
-            None,
-        )]));
-    };
     let k_study = study.factors.len();
     let dummies = fraction.k.saturating_sub(k_study);
     let mut ids: Vec<String> = study.factors.iter().map(|f| f.id.clone()).collect();
@@ -276,8 +289,8 @@ fn regular_fraction(study: &Study) -> Result<Design, Diagnostics> {
         })
         .collect();
     let structure = Structure {
-        generators: request.generator_texts.clone(),
-        catalogue: request.catalogue.clone(),
+        generators,
+        catalogue,
         defining_relation: defining
             .iter()
             .map(|w| format!("I = {}", words_text(&ids, *w)))
@@ -298,9 +311,8 @@ fn regular_fraction(study: &Study) -> Result<Design, Diagnostics> {
     Ok(design)
 }
 
-fn plackett_burman(study: &Study) -> Result<Design, Diagnostics> {
+fn plackett_burman(study: &Study, n: usize) -> Result<Design, Diagnostics> {
     let request = &study.design;
-    let n = request.pb_runs.unwrap_or(0);
     let matrix = crate::design::plackett_burman::matrix(n).map_err(|e| {
         Diagnostics(vec![study.diagnostic(
             &FieldPath::of(&["design", "runs"]),

@@ -12,7 +12,7 @@ use super::diagnostic::{Diagnostic, Diagnostics, FieldPath, closest};
 use super::locate::Locator;
 use super::model::{self, DesignKind, LimitUnit, NominalPlacement, PercentOf, StudyFile};
 use super::{
-    DesignRequest, EffectLimit, ExplicitRun, Factor, Levels, Placement, Response, RunId,
+    DesignRequest, DesignRules, EffectLimit, ExplicitRun, Factor, Levels, Placement, Response, RunId,
     SignificanceRule, Study, SuitabilityLimit,
 };
 
@@ -41,6 +41,7 @@ impl Checker<'_> {
 
 /// Checks a parsed study file and builds the `Study`.
 pub fn study(
+    rules: DesignRules,
     files: &dyn crate::files::Files,
     path: &Path,
     file_name: &str,
@@ -57,6 +58,10 @@ pub fn study(
     let factors = factors(&mut c, &file.factors);
     let before = c.problems.0.len();
     let design = design(&mut c, &file.design, &file.factors);
+    let factor_ids: Vec<&str> = file.factors.iter().map(|f| f.id.as_str()).collect();
+    for p in rules(&design, &factor_ids) {
+        c.report(&p.field, p.problem, p.expected);
+    }
     let design_ok = c.problems.0.len() == before;
     let responses = responses(&mut c, &file, &design, design_ok);
     let (limits, significance, suitability) = acceptance(&mut c, &file, &responses);
@@ -372,13 +377,17 @@ fn design(
         );
     }
     let k = factors.len();
+    let count = match &spec.runs {
+        Some(model::RunsSpec::Count(n)) => Some(*n as usize),
+        _ => None,
+    };
     let mut request = DesignRequest {
         kind: spec.kind,
         explicit_runs: Vec::new(),
-        fraction: None,
-        generator_texts: Vec::new(),
-        catalogue: None,
-        pb_runs: None,
+        generators: spec.generators.clone(),
+        resolution: spec.resolution,
+        runs: count,
+        dummies: spec.dummies.unwrap_or(0) as usize,
         foldover: spec.foldover.unwrap_or(false),
         alias_order: spec.alias_order.unwrap_or(2),
         allow_nonorthogonal: spec.allow_nonorthogonal.unwrap_or(false),
@@ -397,10 +406,6 @@ fn design(
                 Some(hint.to_string()),
             );
         }
-    };
-    let count = match &spec.runs {
-        Some(model::RunsSpec::Count(n)) => Some(*n as usize),
-        _ => None,
     };
     let is_list = matches!(spec.runs, Some(model::RunsSpec::List(_)));
     if spec.kind != DesignKind::Explicit {
@@ -464,45 +469,9 @@ fn design(
                 );
             }
         }
-        DesignKind::FractionalFactorial => fractional(c, spec, factors, count, &mut request),
-        DesignKind::PlackettBurman => {
-            let dummies = spec.dummies.unwrap_or(0) as usize;
-            let needed = k + dummies;
-            let sizes = crate::design::plackett_burman::SIZES
-                .iter()
-                .map(ToString::to_string)
-                .collect::<Vec<_>>()
-                .join(", ");
-            match count {
-                Some(n) if !crate::design::plackett_burman::SIZES.contains(&n) => c.report(
-                    &at.key("runs"),
-                    format!("there is no Plackett–Burman design of {n} runs here"),
-                    Some(format!("expected one of {sizes}")),
-                ),
-                Some(n) if needed > n - 1 => c.report(
-                    &at.key("runs"),
-                    format!(
-                        "{k} factors{} need {needed} columns, more than the {} of a {n}-run Plackett–Burman design",
-                        if dummies > 0 { format!(" and {dummies} dummies") } else { String::new() },
-                        n - 1
-                    ),
-                    Some(format!(
-                        "expected runs of at least {}",
-                        crate::design::plackett_burman::smallest_size(needed)
-                            .map_or_else(|| "(none available)".to_string(), |s| s.to_string())
-                    )),
-                ),
-                Some(n) => request.pb_runs = Some(n),
-                None => match crate::design::plackett_burman::smallest_size(needed) {
-                    Some(n) => request.pb_runs = Some(n),
-                    None => c.report(
-                        &at.key("kind"),
-                        format!("{needed} columns are more than the largest Plackett–Burman design here"),
-                        Some(format!("expected at most {} columns", crate::design::plackett_burman::SIZES.last().map_or(0, |n| n - 1))),
-                    ),
-                },
-            }
-        }
+        // The choice of fraction, Plackett–Burman size and Youden arrangement is the design
+        // stage's (the design rules the loader is given); here only what the study states.
+        DesignKind::FractionalFactorial | DesignKind::PlackettBurman => {}
         DesignKind::Youden => {
             not_here(
                 c,
@@ -510,19 +479,6 @@ fn design(
                 count.is_some(),
                 "the Youden–Steiner design has 8 runs",
             );
-            if k > 7 {
-                c.report(
-                    &at.key("kind"),
-                    format!(
-                        "the Youden–Steiner design has 7 columns, but the study has {k} factors"
-                    ),
-                    Some("expected at most 7 factors; use kind plackett-burman for more".into()),
-                );
-            } else {
-                let fraction = crate::design::fraction::youden_steiner();
-                request.generator_texts = youden_generator_texts(&fraction);
-                request.fraction = Some(fraction);
-            }
         }
         DesignKind::Explicit => {
             not_here(
@@ -564,155 +520,6 @@ pub fn kind_text(kind: DesignKind) -> &'static str {
         DesignKind::Youden => "youden",
         DesignKind::Explicit => "explicit",
     }
-}
-
-fn youden_generator_texts(fraction: &crate::design::fraction::Fraction) -> Vec<String> {
-    fraction
-        .generators
-        .iter()
-        .map(|g| {
-            format!(
-                "{} = {}{}",
-                crate::design::word::factor_label(g.factor),
-                if g.sign < 0 { "−" } else { "" },
-                crate::design::word::letters(g.word)
-            )
-        })
-        .collect()
-}
-
-fn fractional(
-    c: &mut Checker<'_>,
-    spec: &model::DesignSpec,
-    factors: &[model::FactorSpec],
-    count: Option<usize>,
-    request: &mut DesignRequest,
-) {
-    use crate::design::{catalogue, fraction};
-    let at = FieldPath::of(&["design"]);
-    let k = factors.len();
-    let ids: Vec<&str> = factors.iter().map(|f| f.id.as_str()).collect();
-    let built = if let Some(texts) = &spec.generators {
-        let mut generators = Vec::new();
-        let mut ok = true;
-        for (i, text) in texts.iter().enumerate() {
-            match fraction::parse_generator(text, &ids) {
-                Ok(g) => generators.push(g),
-                Err(e) => {
-                    ok = false;
-                    c.report(&at.key("generators").index(i), e.to_string(), None);
-                }
-            }
-        }
-        if !ok {
-            return;
-        }
-        if generators.is_empty() {
-            c.report(
-                &at.key("generators"),
-                "no generators are given",
-                Some(
-                    "expected at least one, e.g. `E = ABCD`; with none, use kind full-factorial"
-                        .into(),
-                ),
-            );
-            return;
-        }
-        match fraction::Fraction::new(k, generators) {
-            Ok(f) => {
-                request.generator_texts = texts.clone();
-                f
-            }
-            Err(e) => {
-                c.report(&at.key("generators"), e.to_string(), None);
-                return;
-            }
-        }
-    } else {
-        match catalogue::choose(k, spec.resolution, count) {
-            Ok(entry) => {
-                let letters: Vec<String> = (0..k).map(crate::design::word::factor_label).collect();
-                let letter_refs: Vec<&str> = letters.iter().map(String::as_str).collect();
-                let generators: Result<Vec<_>, _> = entry
-                    .generators
-                    .iter()
-                    .map(|g| fraction::parse_generator(g, &letter_refs))
-                    .collect();
-                match generators
-                    .map_err(|e| e.to_string())
-                    .and_then(|g| fraction::Fraction::new(k, g).map_err(|e| e.to_string()))
-                {
-                    Ok(f) => {
-                        request.generator_texts =
-                            entry.generators.iter().map(|g| (*g).to_string()).collect();
-                        request.catalogue = Some(format!(
-                            "2^({k}−{}) resolution {} from the catalogue (Montgomery, Design and Analysis of Experiments, Table 8-14)",
-                            entry.generators.len(),
-                            catalogue::roman(entry.resolution)
-                        ));
-                        f
-                    }
-                    Err(e) => {
-                        c.report(
-                            &at.key("kind"),
-                            format!("internal catalogue error: {e}"),
-                            None,
-                        );
-                        return;
-                    }
-                }
-            }
-            Err(e) => {
-                let field = if spec.resolution.is_some() {
-                    at.key("resolution")
-                } else if count.is_some() {
-                    at.key("runs")
-                } else {
-                    at.key("kind")
-                };
-                let expected = if spec.resolution.is_none() && count.is_none() {
-                    Some("give `generators`, `resolution` or `runs`".to_string())
-                } else {
-                    None
-                };
-                c.report(&field, e.to_string(), expected);
-                return;
-            }
-        }
-    };
-    if let (Some(wanted), Some(got)) = (spec.resolution, built.resolution)
-        && got < wanted
-        && spec.generators.is_some()
-    {
-        c.report(
-                &at.key("resolution"),
-                format!("the generators give resolution {got}, below the {wanted} asked for"),
-                Some("expected generators whose shortest defining word is long enough, or a lower resolution".into()),
-            );
-    }
-    if let Some(n) = count
-        && spec.generators.is_some()
-        && n != built.runs()
-    {
-        c.report(
-            &at.key("runs"),
-            format!("the generators give {} runs, not {n}", built.runs()),
-            Some(format!("expected runs: {} or no `runs`", built.runs())),
-        );
-    }
-    if request.foldover && built.resolution != Some(3) {
-        c.report(
-            &at.key("foldover"),
-            format!(
-                "fold-over is for resolution III designs; this one has resolution {}",
-                built
-                    .resolution
-                    .map_or("(none)".to_string(), |r| r.to_string())
-            ),
-            Some("expected `foldover` only with a resolution III fraction".into()),
-        );
-    }
-    request.fraction = Some(built);
 }
 
 fn explicit_runs(

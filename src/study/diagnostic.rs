@@ -61,6 +61,18 @@ impl fmt::Display for FieldPath {
     }
 }
 
+/// A problem with a field found by a rule of a later stage (the design rules the loader is
+/// given): the check places it in the file and reports it with the study's own problems.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct FieldProblem {
+    /// The field.
+    pub field: FieldPath,
+    /// What is wrong.
+    pub problem: String,
+    /// What would be valid.
+    pub expected: Option<String>,
+}
+
 /// One problem found in an input file.
 #[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
 pub struct Diagnostic {

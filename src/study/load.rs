@@ -9,8 +9,8 @@ use sha2::{Digest, Sha256};
 
 use super::diagnostic::{Diagnostic, Diagnostics, FieldPath};
 use super::model::StudyFile;
-use super::{Study, check, schema};
-use crate::files::{Disk, Files};
+use super::{DesignRules, Study, check, schema};
+use crate::files::Files;
 
 /// Largest study file accepted, in bytes (a study of the largest design is far smaller).
 pub const MAX_STUDY_BYTES: u64 = 4 * 1024 * 1024;
@@ -18,14 +18,14 @@ pub const MAX_STUDY_BYTES: u64 = 4 * 1024 * 1024;
 /// The path that names standard input (`plateau check -`).
 pub const STDIN: &str = "-";
 
-/// Loads and checks a study file from the working folder; the path `-` reads the study from
-/// standard input (files it names are then found from the current folder).
-pub fn load(path: &Path) -> Result<Study, Diagnostics> {
-    load_from(&Disk, path)
-}
-
-/// Loads and checks a study file read through `files` (see [`crate::files`]).
-pub fn load_from(files: &dyn Files, path: &Path) -> Result<Study, Diagnostics> {
+/// Loads and checks a study file read through `files` (see [`crate::files`]), with the design
+/// stage's `rules` for its design request (`pipeline::load` supplies them); the path `-` reads
+/// the study from standard input (files it names are then found from the current folder).
+pub fn load_from(
+    rules: DesignRules,
+    files: &dyn Files,
+    path: &Path,
+) -> Result<Study, Diagnostics> {
     if path == Path::new(STDIN) {
         let file_name = "<stdin>".to_string();
         let bytes = stdin_bytes(&file_name)?;
@@ -33,6 +33,7 @@ pub fn load_from(files: &dyn Files, path: &Path) -> Result<Study, Diagnostics> {
         return parse(&text, &file_name)
             .and_then(|study_file| {
                 check::study(
+                    rules,
                     &crate::files::Disk,
                     Path::new("./<stdin>"),
                     &file_name,
@@ -49,6 +50,7 @@ pub fn load_from(files: &dyn Files, path: &Path) -> Result<Study, Diagnostics> {
     parse(&text, &file_name)
         .and_then(|study_file| {
             check::study(
+                rules,
                 files,
                 path,
                 &file_name,
@@ -130,7 +132,7 @@ pub fn read(
 
 /// Reads a file of the working folder (see [`read`]).
 pub fn read_limited(path: &Path, limit: u64, file_name: &str) -> Result<Vec<u8>, Diagnostics> {
-    read(&Disk, path, limit, file_name)
+    read(&crate::files::Disk, path, limit, file_name)
 }
 
 /// UTF-8 text from bytes, with the position of the first invalid byte; a leading byte-order

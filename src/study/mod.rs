@@ -14,8 +14,12 @@ pub mod schema;
 
 use std::path::PathBuf;
 
-pub use diagnostic::{Diagnostic, Diagnostics, FieldPath};
-pub use load::load;
+pub use diagnostic::{Diagnostic, Diagnostics, FieldPath, FieldProblem};
+
+/// The rules of a design request that only the design stage knows (which fraction, which
+/// Plackett–Burman size): handed to the loader, so that a study file's design problems are
+/// reported with all its other problems while the study stage names no later stage.
+pub type DesignRules = fn(&DesignRequest, &[&str]) -> Vec<FieldProblem>;
 pub use model::{DesignKind, LimitUnit, PercentOf};
 
 /// A run identifier as the run sheet prints it (integers are kept as their decimal text).
@@ -199,14 +203,14 @@ pub struct DesignRequest {
     pub kind: DesignKind,
     /// Runs of an explicit design.
     pub explicit_runs: Vec<ExplicitRun>,
-    /// The fraction of a fractional-factorial or Youden design.
-    pub fraction: Option<crate::design::fraction::Fraction>,
-    /// Generators as written (or as taken from the catalogue).
-    pub generator_texts: Vec<String>,
-    /// Where the generators came from, when chosen from the catalogue.
-    pub catalogue: Option<String>,
-    /// Runs of a Plackett–Burman design.
-    pub pb_runs: Option<usize>,
+    /// Generators as written (`generators:`), for a fractional factorial.
+    pub generators: Option<Vec<String>>,
+    /// The resolution asked for (`resolution:`), for a fractional factorial.
+    pub resolution: Option<u32>,
+    /// The run count asked for (`runs: N`) of a generated design.
+    pub runs: Option<usize>,
+    /// Dummy columns asked for (`dummies:`) of a Plackett–Burman design.
+    pub dummies: usize,
     /// Add the mirror-image runs.
     pub foldover: bool,
     /// Highest interaction order in alias chains.
