@@ -378,7 +378,7 @@ fn design_summary(design: &Design) -> DesignSummary {
             .collect()
     };
     DesignSummary {
-        kind: crate::study::check::kind_text(design.kind).to_string(),
+        kind: design.kind.as_str().to_string(),
         runs: design.runs.len(),
         two_level_runs: design.runs.iter().filter(|r| !r.nominal).count(),
         center_points: design.nominal_count(),

@@ -56,7 +56,12 @@ pub fn choose(
     }
 }
 
-fn complain(out: &mut Vec<FieldProblem>, field: FieldPath, problem: String, expected: Option<String>) {
+fn complain(
+    out: &mut Vec<FieldProblem>,
+    field: FieldPath,
+    problem: String,
+    expected: Option<String>,
+) {
     out.push(FieldProblem {
         field,
         problem,
@@ -99,7 +104,11 @@ fn decide(
                         at.key("runs"),
                         format!(
                             "{k} factors{} need {needed} columns, more than the {} of a {n}-run Plackett–Burman design",
-                            if dummies > 0 { format!(" and {dummies} dummies") } else { String::new() },
+                            if dummies > 0 {
+                                format!(" and {dummies} dummies")
+                            } else {
+                                String::new()
+                            },
                             n - 1
                         ),
                         Some(format!(

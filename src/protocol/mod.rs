@@ -11,9 +11,9 @@ pub mod deviations;
 
 use std::path::{Path, PathBuf};
 
-use serde::{Deserialize, Serialize};
 use serde_json::Value;
 
+use crate::study::planning::Lock;
 use crate::study::{Diagnostics, FieldPath, Study};
 
 /// The `format` of a lock file this version writes and reads.
@@ -25,27 +25,6 @@ pub const LOCK_FILE: &str = "protocol.lock.json";
 /// Largest lock file read, in bytes (a lock is a copy of the planning part of a study file).
 const MAX_LOCK_BYTES: u64 = 4 * 1024 * 1024;
 
-/// Top-level study-file fields that are not part of the plan: they are written during or
-/// after the execution.
-pub const NOT_PLANNING: [&str; 5] = ["results", "excluded", "notes", "report", "protocol"];
-
-/// A protocol lock: the planning content and its hash.
-#[derive(Debug, Clone, Serialize, Deserialize)]
-#[serde(deny_unknown_fields, rename_all = "kebab-case")]
-pub struct Lock {
-    /// Always [`FORMAT`].
-    pub format: String,
-    /// The study id the protocol was written for.
-    pub study: String,
-    /// SHA-256 (lowercase hex) of the canonical JSON text of `planning`.
-    pub planning_sha256: String,
-    /// The planning content.
-    pub planning: Value,
-    /// The lock file as named in messages (not stored in the file).
-    #[serde(skip)]
-    pub file: String,
-}
-
 impl Lock {
     /// The lock of `study`'s current plan.
     pub fn of(study: &Study) -> Lock {
@@ -56,40 +35,6 @@ impl Lock {
             planning: study.planning.clone(),
             file: LOCK_FILE.to_string(),
         }
-    }
-
-    /// The lock file's bytes: pretty JSON (its hash is taken over the canonical form, so the
-    /// layout does not matter), with a final newline.
-    pub fn bytes(&self) -> Vec<u8> {
-        let mut text = serde_json::to_string_pretty(self).unwrap_or_default();
-        text.push('\n');
-        text.into_bytes()
-    }
-}
-
-/// The planning content of a study-file tree (the serialised study file): the fields that are
-/// not in [`NOT_PLANNING`], with `null` members removed so that a field left out and a field
-/// written as `null` are one plan.
-pub fn planning_content(tree: &Value) -> Value {
-    let mut plan = strip_nulls(tree);
-    if let Value::Object(map) = &mut plan {
-        for key in NOT_PLANNING {
-            map.remove(key);
-        }
-    }
-    plan
-}
-
-fn strip_nulls(v: &Value) -> Value {
-    match v {
-        Value::Object(map) => Value::Object(
-            map.iter()
-                .filter(|(_, v)| !v.is_null())
-                .map(|(k, v)| (k.clone(), strip_nulls(v)))
-                .collect(),
-        ),
-        Value::Array(items) => Value::Array(items.iter().map(strip_nulls).collect()),
-        other => other.clone(),
     }
 }
 
@@ -218,7 +163,7 @@ mod tests {
         let a: Value =
             serde_json::from_str(r#"{"b": [1, {"y": 2.5, "x": "t"}], "a": null}"#).unwrap();
         assert_eq!(canonical(&a), r#"{"a":null,"b":[1,{"x":"t","y":2.5}]}"#);
-        let stripped = planning_content(&a);
+        let stripped = crate::study::planning::planning_content(&a);
         assert_eq!(canonical(&stripped), r#"{"b":[1,{"x":"t","y":2.5}]}"#);
     }
 

@@ -11,7 +11,8 @@ use serde::Serialize;
 
 use crate::analysis::criterion::Method;
 use crate::design::{Design, sheet};
-use crate::protocol::{LOCK_FILE, Lock};
+use crate::protocol::LOCK_FILE;
+use crate::study::planning::Lock;
 use crate::study::{Levels, LimitUnit, PercentOf, Study, model::Role};
 
 use super::context::{self, DesignText, FactorRow, Signatory, and_list, setting_of};

@@ -12,8 +12,8 @@ use super::diagnostic::{Diagnostic, Diagnostics, FieldPath, closest};
 use super::locate::Locator;
 use super::model::{self, DesignKind, LimitUnit, NominalPlacement, PercentOf, StudyFile};
 use super::{
-    DesignRequest, DesignRules, EffectLimit, ExplicitRun, Factor, Levels, Placement, Response, RunId,
-    SignificanceRule, Study, SuitabilityLimit,
+    DesignRequest, DesignRules, EffectLimit, ExplicitRun, Factor, Levels, Placement, Response,
+    RunId, SignificanceRule, Study, SuitabilityLimit,
 };
 
 /// Most factors a study may have (the largest Plackett–Burman design has 47 columns).
@@ -106,7 +106,7 @@ pub fn study(
     check_id_clashes(&mut c, &file);
     let tree = serde_json::to_value(&file).unwrap_or_default();
     check_printable(&mut c, &tree, &FieldPath::root());
-    let planning = crate::protocol::planning_content(&tree);
+    let planning = super::planning::planning_content(&tree);
     if !c.problems.is_empty() {
         return Err(c.problems.sorted());
     }
@@ -397,7 +397,7 @@ fn design(
         seed,
         drift_correction: spec.drift_correction,
     };
-    let kind_name = kind_text(spec.kind);
+    let kind_name = spec.kind.as_str();
     let not_here = |c: &mut Checker<'_>, name: &str, present: bool, hint: &str| {
         if present {
             c.report(
@@ -509,17 +509,6 @@ fn design(
         }
     }
     request
-}
-
-/// The kind as written in the study file.
-pub fn kind_text(kind: DesignKind) -> &'static str {
-    match kind {
-        DesignKind::FullFactorial => "full-factorial",
-        DesignKind::FractionalFactorial => "fractional-factorial",
-        DesignKind::PlackettBurman => "plackett-burman",
-        DesignKind::Youden => "youden",
-        DesignKind::Explicit => "explicit",
-    }
 }
 
 fn explicit_runs(

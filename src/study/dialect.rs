@@ -1,6 +1,6 @@
 //! The dialect a study may declare for its results CSV (`results: { separator, decimal,
 //! encoding }`): the words of the study file. Detecting the dialect of a file is the job of
-//! [`crate::measurements`].
+//! the measurements stage.
 
 use serde::{Deserialize, Serialize};
 

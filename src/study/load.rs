@@ -21,11 +21,7 @@ pub const STDIN: &str = "-";
 /// Loads and checks a study file read through `files` (see [`crate::files`]), with the design
 /// stage's `rules` for its design request (`pipeline::load` supplies them); the path `-` reads
 /// the study from standard input (files it names are then found from the current folder).
-pub fn load_from(
-    rules: DesignRules,
-    files: &dyn Files,
-    path: &Path,
-) -> Result<Study, Diagnostics> {
+pub fn load_from(rules: DesignRules, files: &dyn Files, path: &Path) -> Result<Study, Diagnostics> {
     if path == Path::new(STDIN) {
         let file_name = "<stdin>".to_string();
         let bytes = stdin_bytes(&file_name)?;

@@ -10,6 +10,7 @@ pub mod glyphs;
 pub mod load;
 pub mod locate;
 pub mod model;
+pub mod planning;
 pub mod schema;
 
 use std::path::PathBuf;
@@ -101,7 +102,7 @@ pub struct Study {
     /// report frame and protocol), in the canonical form a protocol lock holds.
     pub planning: serde_json::Value,
     /// The protocol lock, read and checked against its own hash (set by `pipeline::plan`).
-    pub lock: Option<crate::protocol::Lock>,
+    pub lock: Option<planning::Lock>,
     /// The logo's bytes as checked (`report.logo`), embedded by the report as read here.
     pub logo: Option<Vec<u8>>,
 }

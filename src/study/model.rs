@@ -321,6 +321,19 @@ pub enum DesignKind {
     Explicit,
 }
 
+impl DesignKind {
+    /// The kind as written in the study file.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            DesignKind::FullFactorial => "full-factorial",
+            DesignKind::FractionalFactorial => "fractional-factorial",
+            DesignKind::PlackettBurman => "plackett-burman",
+            DesignKind::Youden => "youden",
+            DesignKind::Explicit => "explicit",
+        }
+    }
+}
+
 /// Where the nominal (centre) runs go in the run order.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
 #[serde(rename_all = "kebab-case")]
