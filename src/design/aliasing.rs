@@ -2,11 +2,9 @@
 //! used for explicit (user-given) designs and for the non-regular Plackett–Burman arrays,
 //! where alias chains from a defining relation do not exist.
 
-use std::collections::HashMap;
-
 use serde::Serialize;
 
-use super::word::{MAX_FACTORS, Word, display_cmp, terms_of_order};
+use super::word::{MAX_FACTORS, Word};
 
 /// A cell that is not a coded level −1 or +1.
 #[derive(Clone, Copy, PartialEq, Debug, Serialize)]
@@ -202,8 +200,12 @@ pub fn interaction_correlations(matrix: &[Vec<i8>], factors: &[usize]) -> Vec<Pa
 /// Groups every term up to `max_order` (over all columns of the matrix) whose product columns
 /// are identical up to sign; each group sorted in display order, groups ordered by their first
 /// member. Terms whose product column is constant (aliased with the mean) are left out: they
-/// are not contrasts. Brute force over Σ C(k, j), j ≤ max_order, terms: meant for checks and small explicit designs.
-pub fn chains_by_brute_force(matrix: &[Vec<i8>], max_order: u32) -> Vec<Vec<Word>> {
+/// are not contrasts. Brute force over Σ C(k, j), j ≤ max_order, terms: the independent check
+/// of the algebraic alias chains in the tests.
+#[cfg(test)]
+pub(crate) fn chains_by_brute_force(matrix: &[Vec<i8>], max_order: u32) -> Vec<Vec<Word>> {
+    use super::word::{display_cmp, terms_of_order};
+    use std::collections::HashMap;
     let k = matrix.first().map_or(0, Vec::len).min(MAX_FACTORS);
     let max_order = max_order.min(k as u32);
     let mut groups: HashMap<Vec<i8>, Vec<Word>> = HashMap::new();

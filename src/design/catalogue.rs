@@ -338,7 +338,8 @@ pub fn choose(
 
 #[cfg(test)]
 mod tests {
-    use super::super::fraction::{Fraction, parse_generator};
+    use super::super::fraction::Fraction;
+    use super::super::generator::parse_generator;
     use super::*;
 
     const IDS: [&str; 15] = [

@@ -8,7 +8,7 @@
 //! plan builds.
 
 use crate::design::fraction::{self, Fraction};
-use crate::design::{catalogue, plackett_burman, word};
+use crate::design::{catalogue, generator, plackett_burman, word};
 use crate::study::{DesignKind, DesignRequest, FieldPath, FieldProblem};
 
 /// How the two-level runs of a design are constructed.
@@ -191,7 +191,7 @@ fn fractional(
         let mut generators = Vec::new();
         let mut ok = true;
         for (i, text) in texts.iter().enumerate() {
-            match fraction::parse_generator(text, ids) {
+            match generator::parse_generator(text, ids) {
                 Ok(g) => generators.push(g),
                 Err(e) => {
                     ok = false;
@@ -229,7 +229,7 @@ fn fractional(
                 let generators: Result<Vec<_>, _> = entry
                     .generators
                     .iter()
-                    .map(|g| fraction::parse_generator(g, &letter_refs))
+                    .map(|g| generator::parse_generator(g, &letter_refs))
                     .collect();
                 match generators
                     .map_err(|e| e.to_string())

@@ -8,6 +8,7 @@ pub mod aliasing;
 pub mod catalogue;
 pub mod construction;
 pub mod fraction;
+pub mod generator;
 pub mod order;
 pub mod plackett_burman;
 pub mod sheet;

@@ -53,15 +53,6 @@ pub struct ProtocolRecord {
     pub deviations: Vec<Deviation>,
 }
 
-impl ProtocolRecord {
-    /// True when a deviation touches the acceptance criteria.
-    pub fn criteria_changed(&self) -> bool {
-        self.deviations
-            .iter()
-            .any(|d| d.field == "acceptance" || d.field.starts_with("acceptance["))
-    }
-}
-
 /// The record of a study whose lock was read; `None` without a protocol.
 pub fn record(study: &Study, order: &[OrderChange]) -> Option<ProtocolRecord> {
     let lock = study.lock.as_ref()?;

@@ -169,11 +169,6 @@ impl Numbers {
     pub fn derived(&self, x: f64) -> String {
         fixed(x, self.derived_decimals())
     }
-
-    /// A signed derived quantity in the response's unit (`+1.2`, `−0.4`).
-    pub fn derived_signed(&self, x: f64) -> String {
-        signed(x, self.derived_decimals())
-    }
 }
 
 #[cfg(test)]

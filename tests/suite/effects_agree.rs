@@ -14,7 +14,8 @@ use nalgebra::{DMatrix, DVector};
 use proptest::prelude::*;
 
 use plateau::analysis::effects::{all_effects_fwht, effect};
-use plateau::design::fraction::{Fraction, Generator};
+use plateau::design::fraction::Fraction;
+use plateau::design::generator::Generator;
 use plateau::design::word::Word;
 
 /// Agreement asked for by the issue, relative to the size of the numbers compared.
