@@ -16,7 +16,7 @@ mod plan;
 pub mod sheet;
 pub mod word;
 
-use crate::study::{DesignKind, Diagnostic, Diagnostics, FieldPath, RunId, Study};
+use crate::study::{DesignKind, Diagnostics, FieldPath, RunId, Study};
 
 /// A term (main effect or interaction) as a bit set of factor indices.
 pub type TermMask = u64;

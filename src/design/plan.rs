@@ -418,9 +418,7 @@ pub(super) fn explicit(study: &Study) -> Result<Design, Diagnostics> {
             replicate: usize::from(!nominal),
         });
     }
-    if let Err(d) = check_explicit_order(study, &runs) {
-        return Err(Diagnostics(vec![d]));
-    }
+    check_explicit_order(study, &runs)?;
     Ok(Design {
         kind: DesignKind::Explicit,
         column_ids: study.factors.iter().map(|f| f.id.clone()).collect(),
@@ -451,18 +449,18 @@ pub(super) fn is_orthogonal(matrix: &[Vec<i8>], k: usize) -> bool {
             .all(|a| (a + 1..k).all(|b| col(a).zip(col(b)).map(|(x, y)| x * y).sum::<i64>() == 0))
 }
 
-pub(super) fn check_explicit_order(study: &Study, runs: &[PlannedRun]) -> Result<(), Diagnostic> {
+fn check_explicit_order(study: &Study, runs: &[PlannedRun]) -> Result<(), Diagnostics> {
     let mut orders: Vec<usize> = runs.iter().map(|r| r.order).collect();
     orders.sort_unstable();
     if orders.iter().enumerate().any(|(i, o)| *o != i + 1) {
-        return Err(study.diagnostic(
+        return Err(Diagnostics(vec![study.diagnostic(
             &FieldPath::of(&["design", "runs"]),
             "the run orders are not 1, 2, ..., n",
             Some(format!(
                 "expected each position from 1 to {} exactly once",
                 runs.len()
             )),
-        ));
+        )]));
     }
     Ok(())
 }
