@@ -281,7 +281,7 @@ fn inline_rows(study: &Study, runs: &[BTreeMap<String, Value>]) -> Result<Vec<Ro
     let mut problems = Diagnostics::default();
     let mut rows = Vec::new();
     // One parse of the study text for every row's position (not one per row).
-    let locator = crate::study::locate::Locator::new(&study.text);
+    let locator = &study.locator;
     for (i, entry) in runs.iter().enumerate() {
         let here = FieldPath::of(&["results", "runs"]).index(i);
         let run = match entry.get("run").map(run_id) {

@@ -5,7 +5,6 @@
 //! a tree of positions and walks it by path, stopping at the deepest node that exists so a
 //! missing key points at its parent.
 
-use std::marker::PhantomData;
 use std::sync::Arc;
 
 use saphyr::{LoadableYamlNode, MarkedYaml, YamlData};
@@ -15,9 +14,8 @@ use super::diagnostic::{FieldPath, Segment};
 /// Positions of the nodes of one YAML document, parsed once and then queried for every
 /// diagnostic (the tree holds positions and key names only, not the values).
 #[derive(Debug, Clone)]
-pub struct Locator<'a> {
+pub struct Locator {
     root: Option<Arc<Node>>,
-    text: PhantomData<&'a str>,
 }
 
 /// A node: where it starts and ends (1-based line and column) and its children.
@@ -68,25 +66,14 @@ impl Node {
     }
 }
 
-impl<'a> Locator<'a> {
+impl Locator {
     /// Parses `text`; a text that does not parse yields a locator that knows no positions.
-    pub fn new(text: &'a str) -> Self {
+    pub fn new(text: &str) -> Self {
         let root = MarkedYaml::load_from_str(text)
             .ok()
             .and_then(|docs| docs.first().map(Node::from_marked))
             .map(Arc::new);
-        Self {
-            root,
-            text: PhantomData,
-        }
-    }
-
-    /// The same positions, kept beyond the life of the text they were read from.
-    pub fn detached(&self) -> Locator<'static> {
-        Locator {
-            root: self.root.clone(),
-            text: PhantomData,
-        }
+        Self { root }
     }
 
     /// 1-based (line, column) of the value at `path`, or of its deepest existing ancestor.

@@ -105,6 +105,8 @@ pub struct Study {
     pub lock: Option<planning::Lock>,
     /// The logo's bytes as checked (`report.logo`), embedded by the report as read here.
     pub logo: Option<Vec<u8>>,
+    /// The positions of the study file's fields, parsed once, for every later diagnostic.
+    pub locator: locate::Locator,
 }
 
 /// A factor with its two levels resolved.
@@ -337,8 +339,8 @@ impl Study {
         problem: impl Into<String>,
         expected: impl Into<Option<String>>,
     ) -> Diagnostic {
-        let locator = locate::Locator::new(&self.text);
-        Diagnostic::field(&self.file_name, field, problem, expected).at(locator.value(&field.0))
+        Diagnostic::field(&self.file_name, field, problem, expected)
+            .at(self.locator.value(&field.0))
     }
 }
 

@@ -44,7 +44,8 @@ pub fn check(instance: &Value, text: &str, file_name: &str) -> Diagnostics {
         ));
         return out;
     };
-    let locator = Locator::new(text);
+    // The positions are parsed only when there is an error to place.
+    let locator = std::cell::LazyCell::new(|| Locator::new(text));
     let mut seen = std::collections::BTreeSet::new();
     for error in validator.iter_errors(instance) {
         let path = FieldPath(

@@ -27,7 +27,7 @@ const RESERVED_IDS: [&str; 3] = ["run", "order", "time"];
 
 struct Checker<'a> {
     file: &'a str,
-    locator: Locator<'a>,
+    locator: Locator,
     problems: Diagnostics,
 }
 
@@ -130,7 +130,7 @@ pub fn study(
                     format!("`{t}` is not a two-factor interaction"),
                     Some("expected two factor ids joined by ×, e.g. temp×ph".to_string()),
                 )
-                .at(Locator::new(text).value(&at.0)),
+                .at(c.locator.value(&at.0)),
             ),
             Err(e) => problems.push(
                 Diagnostic::field(
@@ -142,7 +142,7 @@ pub fn study(
                         factor_ids.join(", ")
                     )),
                 )
-                .at(Locator::new(text).value(&at.0)),
+                .at(c.locator.value(&at.0)),
             ),
         }
     }
@@ -171,6 +171,7 @@ pub fn study(
         planning,
         lock: None,
         logo: logo_bytes,
+        locator: c.locator,
     })
 }
 
