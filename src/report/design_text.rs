@@ -5,8 +5,7 @@ use serde::Serialize;
 
 use crate::pipeline::Evaluated;
 
-use super::context::superscript;
-use super::format::fixed;
+use super::format::{fixed, superscript};
 use super::wording::and_list;
 
 /// The design in words.

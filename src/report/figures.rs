@@ -12,8 +12,7 @@ use crate::pipeline::Evaluated;
 use crate::plot::{self, PlotError, RefLine};
 use crate::study::{Factor, LimitUnit};
 
-use super::context::setting_of;
-use super::format::{Numbers, fixed, setting};
+use super::format::{Numbers, fixed, setting, setting_of, unit_suffix};
 
 /// One figure of the chapter.
 #[derive(Debug, Clone, PartialEq)]
@@ -301,14 +300,6 @@ fn short_title(response: &ResponseAnalysis) -> String {
     }
 }
 
-fn unit_suffix(response: &ResponseAnalysis) -> String {
-    response
-        .unit
-        .as_deref()
-        .map(|u| format!(" {u}"))
-        .unwrap_or_default()
-}
-
 /// A level as a reader sees it in a figure: `33 °C`, `2.9`, `L-0412`.
 fn level_text(factor: &Factor, coded: i8) -> String {
     let text = setting_of(factor, coded);
@@ -422,7 +413,7 @@ fn half_normal_figure(response: &ResponseAnalysis, numbers: Numbers) -> Result<F
             format!(
                 "{what} ({}{})",
                 fixed(l.value, numbers.derived_decimals()),
-                unit_suffix(response)
+                unit_suffix(response.unit.as_deref())
             )
         })
         .collect();
@@ -443,13 +434,13 @@ fn half_normal_figure(response: &ResponseAnalysis, numbers: Numbers) -> Result<F
             response.name,
             short_label(e),
             fixed(e.effect.abs(), numbers.derived_decimals()),
-            unit_suffix(response),
+            unit_suffix(response.unit.as_deref()),
             lines
                 .first()
                 .map(|l| format!(
                     " A vertical line marks the limit at {}{}.",
                     fixed(l.value, numbers.derived_decimals()),
-                    unit_suffix(response)
+                    unit_suffix(response.unit.as_deref())
                 ))
                 .unwrap_or_default()
         ),
@@ -686,7 +677,7 @@ fn main_effects_figure(
             titled(response),
             basis_text(response),
             numbers.derived(b0),
-            unit_suffix(response)
+            unit_suffix(response.unit.as_deref())
         ),
         alt,
     }))
@@ -884,7 +875,7 @@ fn interaction_figure(
             fb.id,
             note,
             numbers.derived(e.effect),
-            unit_suffix(response),
+            unit_suffix(response.unit.as_deref()),
             fixed(pct(e), crate::report::conclusion::PERCENT_DECIMALS)
         ),
         alt,

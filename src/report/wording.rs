@@ -138,23 +138,6 @@ pub(crate) fn trim(v: f64) -> String {
     t.to_string()
 }
 
-pub(crate) fn factor_unit(study: &Study, id: &str) -> String {
-    study
-        .factors
-        .iter()
-        .find(|f| f.id == id)
-        .and_then(|f| f.unit.clone())
-        .map(|u| format!(" {u}"))
-        .unwrap_or_default()
-}
-
-pub(crate) fn unit_suffix(r: &ResponseAnalysis) -> String {
-    r.unit
-        .as_deref()
-        .map(|u| format!(" {u}"))
-        .unwrap_or_default()
-}
-
 pub(crate) fn capitalise(text: &str) -> String {
     let mut chars = text.chars();
     match chars.next() {
