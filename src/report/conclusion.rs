@@ -124,8 +124,8 @@ pub fn build(study: &Study, analysis: &Analysis) -> Conclusion {
         } else {
             "factors were"
         },
-        analysis.design.two_level_runs,
-        match analysis.design.center_points {
+        analysis.design.counts.two_level_runs,
+        match analysis.design.counts.center_points {
             0 => String::new(),
             1 => " and one nominal run".to_string(),
             n => format!(" and {n} nominal runs"),
@@ -546,7 +546,7 @@ fn overall(study: &Study, analysis: &Analysis) -> Vec<String> {
 /// What the design could not see: aliasing, and the smallest effect it could detect.
 fn limitations(analysis: &Analysis) -> Vec<String> {
     let mut out = Vec::new();
-    let two_level = analysis.design.two_level_runs;
+    let two_level = analysis.design.counts.two_level_runs;
     match (analysis.design.kind.as_str(), analysis.design.resolution) {
         ("plackett-burman", _) => out.push(
             "A Plackett–Burman design estimates main effects only: two-factor interactions are partially aliased with them and cannot be seen.".to_string(),

@@ -15,9 +15,9 @@ pub fn tables(evaluated: &Evaluated) -> String {
         a.study.id,
         a.study.title,
         a.design.kind,
-        a.design.runs,
-        a.design.two_level_runs,
-        a.design.center_points
+        a.design.counts.runs,
+        a.design.counts.two_level_runs,
+        a.design.counts.center_points
     ));
     for r in &a.responses {
         let unit = r.unit.as_deref().unwrap_or("");
