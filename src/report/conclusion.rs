@@ -12,8 +12,8 @@ use crate::study::Study;
 use super::format::{factor_unit, fixed, setting, unit_suffix};
 
 pub use super::wording::{
-    PERCENT_DECIMALS, and_list, follow_up_text, limit_text, note_text, p_text, precaution_text,
-    range_text, significance_text,
+    and_list, follow_up_text, limit_text, note_text, p_text, precaution_text, range_text,
+    significance_text,
 };
 use super::wording::{
     capitalise, count_word, effect_words, factor_name, p_relation, percent_words, probability_text,

@@ -57,6 +57,15 @@ pub fn setting(value: f64) -> String {
     }
 }
 
+/// Percent effects are printed with this many decimals.
+pub const PERCENT_DECIMALS: u32 = 2;
+
+/// A percent effect as printed, with [`PERCENT_DECIMALS`] decimals; `–` when it is undefined
+/// (a zero reference).
+pub fn percent_effect(percent: Option<f64>) -> String {
+    fixed(percent.unwrap_or(f64::NAN), PERCENT_DECIMALS)
+}
+
 /// Significant figures of SS, MS, F, t, standard errors and coefficients in the chapter.
 pub const SIGNIFICANT: u32 = 4;
 

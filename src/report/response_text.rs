@@ -9,9 +9,9 @@ use crate::analysis::{Outcome, ResponseAnalysis};
 use crate::pipeline::Evaluated;
 use crate::study::{LimitUnit, PercentOf};
 
-use super::conclusion::{self, PERCENT_DECIMALS};
+use super::conclusion;
 use super::figures::Figures;
-use super::format::{Numbers, fixed, setting};
+use super::format::{Numbers, percent_effect, setting};
 
 /// One response block.
 #[derive(Debug, Serialize)]
@@ -183,7 +183,7 @@ fn effect_rows(r: &ResponseAnalysis, numbers: Numbers, unit: &str) -> Vec<Effect
         .map(|e| EffectRow {
             term: e.label.clone(),
             effect: numbers.derived(e.effect),
-            percent: fixed(e.percent.unwrap_or(f64::NAN), PERCENT_DECIMALS),
+            percent: percent_effect(e.percent),
             limit: limit_cell(e.relevant),
             relevant: match e.relevant {
                 Some(true) => "yes".into(),

@@ -2,8 +2,8 @@
 //! layer because it words the verdicts.
 
 use crate::pipeline::Evaluated;
-use crate::report::conclusion::{PERCENT_DECIMALS, limit_text, sentences};
-use crate::report::format::fixed;
+use crate::report::conclusion::{limit_text, sentences};
+use crate::report::format::{fixed, percent_effect};
 use crate::report::judging;
 
 /// One table per response with both verdicts, then the conclusion.
@@ -65,7 +65,7 @@ pub fn tables(evaluated: &Evaluated) -> String {
                 e.label,
                 " ".repeat(pad),
                 fixed(e.effect, r.decimals + 1),
-                fixed(e.percent.unwrap_or(f64::NAN), PERCENT_DECIMALS),
+                percent_effect(e.percent),
                 match e.relevant {
                     Some(true) => "yes",
                     Some(false) => "no",

@@ -4,10 +4,7 @@
 use crate::analysis::{Effect, FollowUp, Note, ResponseAnalysis};
 use crate::study::{LimitUnit, Study};
 
-use super::format::{fixed, setting};
-
-/// Percent effects are printed with this many decimals.
-pub const PERCENT_DECIMALS: u32 = 2;
+use super::format::{fixed, percent_effect, setting, unit_suffix};
 
 /// The tested range of a factor in words, e.g. `33 to 37 °C` or `L-0412 and L-0587`.
 pub fn range_text(study: &Study, factor_id: &str) -> String {
@@ -66,15 +63,11 @@ pub fn limit_text(response: &ResponseAnalysis) -> Option<String> {
 }
 
 pub(crate) fn effect_words(response: &ResponseAnalysis, e: &Effect) -> String {
-    let unit = response
-        .unit
-        .as_deref()
-        .map(|u| format!(" {u}"))
-        .unwrap_or_default();
     format!(
-        "{}{unit} ({} %)",
+        "{}{} ({} %)",
         fixed(e.effect, response.decimals + 1),
-        fixed(e.percent.unwrap_or(f64::NAN), PERCENT_DECIMALS)
+        unit_suffix(response.unit.as_deref()),
+        percent_effect(e.percent)
     )
 }
 

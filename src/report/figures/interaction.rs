@@ -4,12 +4,11 @@
 use crate::analysis::{Effect, ResponseAnalysis};
 use crate::pipeline::Evaluated;
 use crate::plot::{self, PlotError};
-use crate::report::format::{Numbers, fixed, setting_of, unit_suffix};
-use crate::report::wording::PERCENT_DECIMALS;
+use crate::report::format::{Numbers, fixed, percent_effect, setting_of, unit_suffix};
 use crate::study::Factor;
 
 use super::{
-    Figure, Omitted, basis_text, csv_number, csv_of, level_text, model_intercept, pct, term_effect,
+    Figure, Omitted, basis_text, csv_number, csv_of, level_text, model_intercept, term_effect,
     titled,
 };
 
@@ -214,7 +213,7 @@ fn interaction_figure(
             note,
             numbers.derived(e.effect),
             unit_suffix(response.unit.as_deref()),
-            fixed(pct(e), PERCENT_DECIMALS)
+            percent_effect(e.percent)
         ),
         alt,
     }))
