@@ -9,6 +9,7 @@ use crate::analysis::decision::{Distribution, WorseLevel};
 use crate::study::Study;
 
 use super::conclusion::significance_text;
+use super::wording::factor_name;
 use super::format::{
     Numbers, RATE_DIGITS, SIGNIFICANT, UNCERTAINTY_DIGITS, factor_decimals, factor_unit, fixed,
     p_cell, p_clause, setting, sig, statistic,
@@ -50,14 +51,6 @@ pub struct JudgingText {
     pub combined: Option<String>,
     /// Remarks of the analysis (excluded runs, least squares, ...).
     pub notes: Vec<String>,
-}
-
-fn factor_name(study: &Study, id: &str) -> String {
-    study
-        .factors
-        .iter()
-        .find(|f| f.id == id)
-        .map_or_else(|| id.to_string(), |f| f.name.clone())
 }
 
 /// A proposed operating range `low to high`: one decimal more than the factor's levels need
