@@ -8,8 +8,7 @@ use crate::analysis::ResponseAnalysis;
 use crate::analysis::decision::{Distribution, WorseLevel};
 use crate::study::Study;
 
-use super::conclusion::significance_text;
-use super::wording::factor_name;
+use super::wording::{factor_name, significance_text};
 use super::format::{
     Numbers, RATE_DIGITS, SIGNIFICANT, UNCERTAINTY_DIGITS, factor_decimals, factor_unit, fixed,
     p_cell, p_clause, setting, sig, statistic,
