@@ -8,7 +8,7 @@ use crate::analysis::ResponseAnalysis;
 use crate::analysis::decision::{Distribution, WorseLevel};
 use crate::study::Study;
 
-use super::wording::{factor_name, significance_text};
+use super::wording::{factor_name, note_text, precaution_text, significance_text};
 use super::format::{
     Numbers, RATE_DIGITS, SIGNIFICANT, UNCERTAINTY_DIGITS, factor_decimals, factor_unit, fixed,
     p_cell, p_clause, setting, sig, statistic,
@@ -81,7 +81,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         notes: r
             .notes
             .iter()
-            .map(|n| crate::report::conclusion::note_text(study, r, n))
+            .map(|n| note_text(study, r, n))
             .collect(),
         ..JudgingText::default()
     };
@@ -288,7 +288,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         }
     }
     for c in &r.control_ranges {
-        match crate::report::conclusion::precaution_text(study, r, c) {
+        match precaution_text(study, r, c) {
             Some(s) => out.precautions.push(s),
             None => {
                 let u = factor_unit(study, &c.factor);
