@@ -421,7 +421,7 @@ fn block_effect(fit: &Fit) -> Option<BlockEffect> {
 }
 
 /// The value percent effects are taken against.
-struct Reference {
+struct PercentReference {
     /// The value.
     value: f64,
     /// `nominal-mean` or `model-intercept`.
@@ -430,7 +430,7 @@ struct Reference {
     defined: bool,
 }
 
-impl Reference {
+impl PercentReference {
     /// The note a reader needs about the reference: undefined percent effects, or a negative
     /// reference.
     fn note(&self) -> Option<Note> {
@@ -455,12 +455,12 @@ fn percent_reference(
     percent_of: PercentOf,
     nominal_mean: Option<f64>,
     intercept: f64,
-) -> Reference {
+) -> PercentReference {
     let (value, kind) = match (percent_of, nominal_mean) {
         (PercentOf::Nominal, Some(m)) => (m, "nominal-mean"),
         _ => (intercept, "model-intercept"),
     };
-    Reference {
+    PercentReference {
         value,
         kind,
         defined: value != 0.0 && value.is_finite(),

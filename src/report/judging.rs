@@ -8,11 +8,11 @@ use crate::analysis::ResponseAnalysis;
 use crate::analysis::decision::{Distribution, WorseLevel};
 use crate::study::Study;
 
-use super::wording::{factor_name, note_text, precaution_text, significance_text};
 use super::format::{
     Numbers, RATE_DIGITS, SIGNIFICANT, UNCERTAINTY_DIGITS, factor_decimals, factor_unit, fixed,
     p_cell, p_clause, setting, sig, statistic,
 };
+use super::wording::{factor_name, note_text, precaution_text, significance_text};
 
 /// The statistical blocks of one response.
 #[derive(Debug, Default, Serialize)]
@@ -78,11 +78,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         .map(|u| format!(" {u}"))
         .unwrap_or_default();
     let mut out = JudgingText {
-        notes: r
-            .notes
-            .iter()
-            .map(|n| note_text(study, r, n))
-            .collect(),
+        notes: r.notes.iter().map(|n| note_text(study, r, n)).collect(),
         ..JudgingText::default()
     };
     let statistical: Vec<&crate::analysis::judge::CriterionSummary> = r
