@@ -9,7 +9,13 @@
 
 use serde::Serialize;
 
+use super::curvature::Curvature;
+use super::mean;
+use super::model::Fit;
+use super::observations::{BLOCK_TERM, Runs};
 use super::quantile::{StatError, f_sf};
+use super::summary::ErrorEstimate;
+use crate::design::Design;
 
 /// One line of the ANOVA table.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -169,6 +175,50 @@ pub fn table(mut parts: Parts) -> Result<AnovaTable, StatError> {
         n_observations: parts.n_observations,
         note,
         warnings: Vec::new(),
+    })
+}
+
+/// The ANOVA of the fit: type III sums of squares of the terms, curvature, lack of fit and
+/// pure error, F against pure error (Montgomery, Design and Analysis of Experiments, ch. 6).
+pub(super) fn from_fit(
+    design: &Design,
+    fit: &Fit,
+    error: &ErrorEstimate,
+    curvature: Option<&Curvature>,
+    runs: &Runs,
+) -> Result<AnovaTable, StatError> {
+    let terms: Vec<(String, f64)> = fit
+        .terms
+        .iter()
+        .filter_map(|t| {
+            let label = if *t == BLOCK_TERM {
+                "block".to_string()
+            } else {
+                design.label(*t)
+            };
+            fit.term_ss(*t).map(|ss| (label, ss))
+        })
+        .collect();
+    let all_used: Vec<f64> = runs
+        .values
+        .iter()
+        .zip(&runs.used)
+        .filter(|(_, u)| **u)
+        .map(|(v, _)| *v)
+        .collect();
+    let m = mean(&all_used);
+    let total: f64 = all_used.iter().map(|v| (v - m).powi(2)).sum();
+    table(Parts {
+        terms,
+        curvature_ss: curvature.map(|c| c.ss_curvature),
+        residual_ss: fit.rss,
+        residual_df: fit.df_residual(),
+        replicate_ss: error.ss_replicates,
+        replicate_df: error.df_replicates,
+        nominal_ss: error.ss_nominal,
+        nominal_df: error.df_nominal,
+        total_ss: total,
+        n_observations: all_used.len(),
     })
 }
 

@@ -81,14 +81,9 @@ pub struct StudySummary {
 pub struct DesignSummary {
     /// Kind (`full-factorial`, `explicit`, ...).
     pub kind: String,
-    /// All runs, nominal runs included.
-    pub runs: usize,
-    /// Two-level runs (all replicates).
-    pub two_level_runs: usize,
-    /// Nominal (centre) runs.
-    pub center_points: usize,
-    /// Replicates of the two-level part.
-    pub replicates: usize,
+    /// How many runs of each sort (serialized inline: `runs`, `two_level_runs`, ...).
+    #[serde(flatten)]
+    pub counts: RunCounts,
     /// Seed of the run order, if randomised.
     pub seed: Option<u64>,
     /// Generators as written (fractional designs).
@@ -115,6 +110,42 @@ pub struct DesignSummary {
     pub aliases: Vec<AliasEntry>,
     /// Partial aliasing of two-factor interactions with main effects (non-regular designs).
     pub partial_aliases: Vec<crate::design::PartialAliasText>,
+}
+
+/// How many runs a design has, of each sort; the analysis document and the chapter's design
+/// paragraph both say these.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct RunCounts {
+    /// All runs, nominal runs included.
+    pub runs: usize,
+    /// Two-level runs (all replicates).
+    pub two_level_runs: usize,
+    /// Nominal (centre) runs.
+    pub center_points: usize,
+    /// Replicates of the two-level part.
+    pub replicates: usize,
+}
+
+impl RunCounts {
+    /// The counts of a planned design.
+    pub fn of(design: &Design) -> Self {
+        Self {
+            runs: design.runs.len(),
+            two_level_runs: design.runs.iter().filter(|r| !r.nominal).count(),
+            center_points: design.nominal_count(),
+            replicates: design.replicates,
+        }
+    }
+}
+
+/// Ids of a design's dummy columns (no factor assigned), in column order.
+pub fn dummy_ids(design: &Design) -> Vec<String> {
+    design
+        .column_ids
+        .iter()
+        .skip(design.k().saturating_sub(design.dummies))
+        .cloned()
+        .collect()
 }
 
 /// One estimated column and every term it estimates.
@@ -379,10 +410,7 @@ fn design_summary(design: &Design) -> DesignSummary {
     };
     DesignSummary {
         kind: design.kind.as_str().to_string(),
-        runs: design.runs.len(),
-        two_level_runs: design.runs.iter().filter(|r| !r.nominal).count(),
-        center_points: design.nominal_count(),
-        replicates: design.replicates,
+        counts: RunCounts::of(design),
         seed: design.seed,
         generators: design.structure.generators.clone(),
         catalogue: design.structure.catalogue.clone(),
@@ -391,12 +419,7 @@ fn design_summary(design: &Design) -> DesignSummary {
         word_length_pattern: design.structure.word_length_pattern.clone(),
         youden: design.structure.youden,
         folded: design.structure.folded,
-        dummies: design
-            .column_ids
-            .iter()
-            .skip(design.k() - design.dummies)
-            .cloned()
-            .collect(),
+        dummies: dummy_ids(design),
         least_squares: design.least_squares,
         alias_order: design.structure.alias_order,
         partial_aliases: design.structure.partial_aliases.clone(),

@@ -150,14 +150,14 @@ fn design_fields(e: &Evaluated) -> Fields {
     vec![
         field("kind", json(&d.kind)),
         field("factor order", json(&factor_order)),
-        field("runs", json(&d.runs)),
-        field("two-level runs", json(&d.two_level_runs)),
-        field("center points", json(&d.center_points)),
+        field("runs", json(&d.counts.runs)),
+        field("two-level runs", json(&d.counts.two_level_runs)),
+        field("center points", json(&d.counts.center_points)),
         field(
             "nominal runs",
             json(&format!("{:?}", r.nominal_runs).to_lowercase()),
         ),
-        field("replicates", json(&d.replicates)),
+        field("replicates", json(&d.counts.replicates)),
         field("seed", json(&d.seed)),
         field("generators", json(&d.generators)),
         field("catalogue", json(&d.catalogue)),

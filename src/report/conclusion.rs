@@ -9,15 +9,15 @@
 use crate::analysis::{Analysis, Effect, Note, Outcome, ResponseAnalysis};
 use crate::study::Study;
 
-use super::format::{fixed, setting};
+use super::format::{factor_unit, fixed, setting, unit_suffix};
 
 pub use super::wording::{
-    PERCENT_DECIMALS, and_list, follow_up_text, limit_text, note_text, p_text, precaution_text,
-    range_text, significance_text,
+    and_list, follow_up_text, limit_text, note_text, p_text, precaution_text, range_text,
+    significance_text,
 };
 use super::wording::{
-    capitalise, count_word, effect_words, factor_name, factor_unit, p_relation, percent_words,
-    probability_text, thousands, unit_suffix,
+    capitalise, count_word, effect_words, factor_name, p_relation, percent_words, probability_text,
+    thousands,
 };
 
 /// The conclusion: what was tested, one block per response, one overall verdict, the
@@ -124,8 +124,8 @@ pub fn build(study: &Study, analysis: &Analysis) -> Conclusion {
         } else {
             "factors were"
         },
-        analysis.design.two_level_runs,
-        match analysis.design.center_points {
+        analysis.design.counts.two_level_runs,
+        match analysis.design.counts.center_points {
             0 => String::new(),
             1 => " and one nominal run".to_string(),
             n => format!(" and {n} nominal runs"),
@@ -288,7 +288,7 @@ fn response_block(
         }
     }
     if let Some(w) = &r.worst_case {
-        let unit = unit_suffix(r);
+        let unit = unit_suffix(r.unit.as_deref());
         let limit = match (w.min, w.max) {
             (Some(m), _) => format!(" against the limit ≥ {}{unit}", setting(m)),
             (None, Some(m)) => format!(" against the limit ≤ {}{unit}", setting(m)),
@@ -347,7 +347,7 @@ fn response_block(
         out.push(format!(
             "The nominal runs drifted by {}{} per run of the run order (p {}){}.",
             crate::report::format::signed(check.slope, r.decimals + 2),
-            unit_suffix(r),
+            unit_suffix(r.unit.as_deref()),
             p_relation(check.p.unwrap_or(f64::NAN)),
             if d.correction.is_some() {
                 "; the effects were computed on drift-corrected values"
@@ -362,7 +362,7 @@ fn response_block(
         out.push(format!(
             "The nominal runs differ significantly from the model's prediction at the nominal setting (curvature {}{}, p {}): the response is not linear between the levels.",
             crate::report::format::signed(c.difference, r.decimals + 1),
-            unit_suffix(r),
+            unit_suffix(r.unit.as_deref()),
             p_relation(c.p.unwrap_or(f64::NAN))
         ));
     }
@@ -370,7 +370,7 @@ fn response_block(
         out.push(format!(
             "The follow-up runs (block 2) sit {}{} from the first runs; the block column of the model takes this shift out of every effect.",
             crate::report::format::signed(b.effect, r.decimals + 1),
-            unit_suffix(r)
+            unit_suffix(r.unit.as_deref())
         ));
     }
     if let Some(k) = &r.routine_risk {
@@ -379,10 +379,10 @@ fn response_block(
                 "outside {} to {}{}",
                 setting(lo),
                 setting(hi),
-                unit_suffix(r)
+                unit_suffix(r.unit.as_deref())
             ),
-            (Some(lo), None) => format!("below {}{}", setting(lo), unit_suffix(r)),
-            (None, Some(hi)) => format!("above {}{}", setting(hi), unit_suffix(r)),
+            (Some(lo), None) => format!("below {}{}", setting(lo), unit_suffix(r.unit.as_deref())),
+            (None, Some(hi)) => format!("above {}{}", setting(hi), unit_suffix(r.unit.as_deref())),
             (None, None) => String::new(),
         };
         out.push(format!(
@@ -416,7 +416,7 @@ fn response_block(
                     .collect::<Vec<_>>()
             ),
             fixed(u.combined, r.decimals + 1),
-            unit_suffix(r)
+            unit_suffix(r.unit.as_deref())
         ));
     }
     ResponseBlock {
@@ -546,7 +546,7 @@ fn overall(study: &Study, analysis: &Analysis) -> Vec<String> {
 /// What the design could not see: aliasing, and the smallest effect it could detect.
 fn limitations(analysis: &Analysis) -> Vec<String> {
     let mut out = Vec::new();
-    let two_level = analysis.design.two_level_runs;
+    let two_level = analysis.design.counts.two_level_runs;
     match (analysis.design.kind.as_str(), analysis.design.resolution) {
         ("plackett-burman", _) => out.push(
             "A Plackett–Burman design estimates main effects only: two-factor interactions are partially aliased with them and cannot be seen.".to_string(),
@@ -568,7 +568,7 @@ fn limitations(analysis: &Analysis) -> Vec<String> {
             Some(format!(
                 "{}{} for {}",
                 fixed(e, r.decimals + 1),
-                unit_suffix(r),
+                unit_suffix(r.unit.as_deref()),
                 r.name
             ))
         })

@@ -3,10 +3,10 @@
 
 use serde::Serialize;
 
+use crate::analysis::{RunCounts, dummy_ids};
 use crate::pipeline::Evaluated;
 
-use super::context::superscript;
-use super::format::fixed;
+use super::format::{fixed, superscript};
 use super::wording::and_list;
 
 /// The design in words.
@@ -14,14 +14,9 @@ use super::wording::and_list;
 pub struct DesignText {
     /// e.g. "full factorial 2³", "fractional factorial 2⁵⁻¹, resolution V".
     pub kind: String,
-    /// All runs.
-    pub runs: usize,
-    /// Two-level runs.
-    pub two_level_runs: usize,
-    /// Nominal runs.
-    pub center_points: usize,
-    /// Replicates.
-    pub replicates: usize,
+    /// How many runs of each sort (templates read `design.runs`, `design.two_level_runs`, ...).
+    #[serde(flatten)]
+    pub counts: RunCounts,
     /// How the run order was set.
     pub order: String,
     /// Generators as written or taken from the catalogue (empty for other designs).
@@ -169,10 +164,7 @@ pub fn design_words(study: &crate::study::Study, design: &crate::design::Design)
         .collect();
     DesignText {
         kind,
-        runs: design.runs.len(),
-        two_level_runs: design.runs.iter().filter(|r| !r.nominal).count(),
-        center_points: design.nominal_count(),
-        replicates: design.replicates,
+        counts: RunCounts::of(design),
         order,
         generators: st.generators.clone(),
         catalogue: st.catalogue.clone(),
@@ -198,12 +190,7 @@ pub fn design_words(study: &crate::study::Study, design: &crate::design::Design)
             .collect(),
         alias_order: st.alias_order,
         alias_rows,
-        dummies: design
-            .column_ids
-            .iter()
-            .skip(design.k().saturating_sub(design.dummies))
-            .cloned()
-            .collect(),
+        dummies: dummy_ids(design),
         partial_aliases: partial_alias_rows(study, design),
         nominal_runs: nominal_runs_text(design),
         plackett_burman: design.kind == crate::study::DesignKind::PlackettBurman,

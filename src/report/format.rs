@@ -16,6 +16,8 @@
 //!
 //! Only the typeset chapter uses these forms: CSV and JSON keep full precision and ASCII `-`.
 
+use crate::study::{Factor, Levels, Setting, Study};
+
 /// `value` rounded to `decimals` places, with U+2212 for negative values; `–` (en dash) for a
 /// value that is not finite, so that no `NaN` ever reaches a report.
 pub fn fixed(value: f64, decimals: u32) -> String {
@@ -55,6 +57,15 @@ pub fn setting(value: f64) -> String {
     }
 }
 
+/// Percent effects are printed with this many decimals.
+pub const PERCENT_DECIMALS: u32 = 2;
+
+/// A percent effect as printed, with [`PERCENT_DECIMALS`] decimals; `–` when it is undefined
+/// (a zero reference).
+pub fn percent_effect(percent: Option<f64>) -> String {
+    fixed(percent.unwrap_or(f64::NAN), PERCENT_DECIMALS)
+}
+
 /// Significant figures of SS, MS, F, t, standard errors and coefficients in the chapter.
 pub const SIGNIFICANT: u32 = 4;
 
@@ -87,7 +98,7 @@ pub fn sig(value: f64, digits: u32) -> String {
         return format!(
             "{} × 10{}",
             fixed(mantissa, digits - 1),
-            super::context::superscript(&magnitude.to_string())
+            superscript(&magnitude.to_string())
         );
     }
     let decimals = (digits as i32 - 1 - magnitude).max(0) as u32;
@@ -169,6 +180,70 @@ impl Numbers {
     pub fn derived(&self, x: f64) -> String {
         fixed(x, self.derived_decimals())
     }
+}
+
+/// Digits and minus signs as Unicode superscripts (`5−1` → `⁵⁻¹`), so that `2⁵⁻¹` reads as a
+/// power in running text without Typst markup; other characters are kept.
+pub fn superscript(text: &str) -> String {
+    text.chars()
+        .map(|c| match c {
+            '0' => '⁰',
+            '1' => '¹',
+            '2' => '²',
+            '3' => '³',
+            '4' => '⁴',
+            '5' => '⁵',
+            '6' => '⁶',
+            '7' => '⁷',
+            '8' => '⁸',
+            '9' => '⁹',
+            '-' | '\u{2212}' => '⁻',
+            c => c,
+        })
+        .collect()
+}
+
+/// Decimal places that show every level of a numeric factor exactly (2.9, 3, 3.1 → 1), so that
+/// a factor's levels line up in tables and figures (`3.0`, not `3`, between `2.9` and `3.1`).
+pub fn factor_decimals(f: &Factor) -> u32 {
+    match &f.levels {
+        Levels::Numeric { nominal, low, high } => {
+            crate::analysis::data_decimals(&[*low, *nominal, *high])
+        }
+        Levels::Categorical { .. } => 0,
+    }
+}
+
+/// A factor's setting at a coded level (−1, 0, +1) as printed, without unit.
+pub fn setting_of(f: &Factor, coded: i8) -> String {
+    match f.setting(coded) {
+        Setting::Value(v) => fixed(v, factor_decimals(f)),
+        Setting::Level(l) => l,
+    }
+}
+
+/// A factor's nominal setting with its unit.
+pub fn nominal_text(f: &Factor) -> String {
+    match (&f.levels, &f.unit) {
+        (Levels::Numeric { .. }, Some(u)) => format!("{} {u}", setting_of(f, 0)),
+        _ => setting_of(f, 0),
+    }
+}
+
+/// ` unit` after a number, or nothing for a quantity without a unit.
+pub fn unit_suffix(unit: Option<&str>) -> String {
+    unit.map(|u| format!(" {u}")).unwrap_or_default()
+}
+
+/// ` unit` of the factor with id `id`, or nothing (no unit, or no such factor).
+pub fn factor_unit(study: &Study, id: &str) -> String {
+    unit_suffix(
+        study
+            .factors
+            .iter()
+            .find(|f| f.id == id)
+            .and_then(|f| f.unit.as_deref()),
+    )
 }
 
 #[cfg(test)]

@@ -8,11 +8,11 @@ use crate::analysis::ResponseAnalysis;
 use crate::analysis::decision::{Distribution, WorseLevel};
 use crate::study::Study;
 
-use super::conclusion::significance_text;
 use super::format::{
-    Numbers, RATE_DIGITS, SIGNIFICANT, UNCERTAINTY_DIGITS, fixed, p_cell, p_clause, setting, sig,
-    statistic,
+    Numbers, RATE_DIGITS, SIGNIFICANT, UNCERTAINTY_DIGITS, factor_decimals, factor_unit, fixed,
+    p_cell, p_clause, setting, sig, statistic,
 };
+use super::wording::{factor_name, note_text, precaution_text, significance_text};
 
 /// The statistical blocks of one response.
 #[derive(Debug, Default, Serialize)]
@@ -52,24 +52,6 @@ pub struct JudgingText {
     pub notes: Vec<String>,
 }
 
-fn factor_name(study: &Study, id: &str) -> String {
-    study
-        .factors
-        .iter()
-        .find(|f| f.id == id)
-        .map_or_else(|| id.to_string(), |f| f.name.clone())
-}
-
-fn unit_of(study: &Study, id: &str) -> String {
-    study
-        .factors
-        .iter()
-        .find(|f| f.id == id)
-        .and_then(|f| f.unit.clone())
-        .map(|u| format!(" {u}"))
-        .unwrap_or_default()
-}
-
 /// A proposed operating range `low to high`: one decimal more than the factor's levels need
 /// (the chapter's number rule), rounded inward so the printed range never allows more than
 /// the computed one (32.24 to 37.76 °C beside levels 33 and 37 °C prints as 32.3 to 37.7).
@@ -78,7 +60,7 @@ pub fn proposed_range_text(study: &Study, id: &str, low: f64, high: f64) -> Stri
         .factors
         .iter()
         .find(|f| f.id == id)
-        .map_or(2, |f| super::context::factor_decimals(f) + 1);
+        .map_or(2, |f| factor_decimals(f) + 1);
     let scale = 10f64.powi(decimals as i32);
     // The 1e-9 keeps a bound that is already on the grid (2.95 computed as 2.9500000000000002).
     let lo = (low * scale - 1e-9).ceil() / scale;
@@ -96,11 +78,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         .map(|u| format!(" {u}"))
         .unwrap_or_default();
     let mut out = JudgingText {
-        notes: r
-            .notes
-            .iter()
-            .map(|n| crate::report::conclusion::note_text(study, r, n))
-            .collect(),
+        notes: r.notes.iter().map(|n| note_text(study, r, n)).collect(),
         ..JudgingText::default()
     };
     let statistical: Vec<&crate::analysis::judge::CriterionSummary> = r
@@ -306,10 +284,10 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
         }
     }
     for c in &r.control_ranges {
-        match crate::report::conclusion::precaution_text(study, r, c) {
+        match precaution_text(study, r, c) {
             Some(s) => out.precautions.push(s),
             None => {
-                let u = unit_of(study, &c.factor);
+                let u = factor_unit(study, &c.factor);
                 out.ranges.push([
                     factor_name(study, &c.factor),
                     if c.basis == "relevance" {
@@ -336,7 +314,7 @@ pub fn build(study: &Study, r: &ResponseAnalysis) -> JudgingText {
     }
     if let Some(u) = &r.uncertainty {
         for row in &u.rows {
-            let fu = unit_of(study, &row.factor);
+            let fu = factor_unit(study, &row.factor);
             out.uncertainty.push([
                 factor_name(study, &row.factor),
                 format!("±{}{fu}", setting(row.routine)),

@@ -18,6 +18,8 @@ pub mod protocol;
 pub mod record;
 pub mod references;
 pub mod render;
+pub mod response_text;
+pub mod run_table;
 pub mod runsheet;
 pub mod tables;
 pub mod terminal;

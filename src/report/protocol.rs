@@ -15,8 +15,10 @@ use crate::protocol::LOCK_FILE;
 use crate::study::planning::Lock;
 use crate::study::{Levels, LimitUnit, PercentOf, Study, model::Role};
 
-use super::context::{self, DesignText, FactorRow, Signatory, and_list, setting_of};
-use super::format::setting;
+use super::context::{self, FactorRow, Signatory};
+use super::design_text::{DesignText, design_words};
+use super::format::{nominal_text, setting, setting_of, unit_suffix};
+use super::wording::and_list;
 use super::{ReportError, render, typst};
 
 /// The files of a protocol folder besides the PDF.
@@ -120,16 +122,12 @@ pub struct PowerTable {
     pub csv: Vec<u8>,
 }
 
-fn unit_suffix(unit: &Option<String>) -> String {
-    unit.as_deref().map(|u| format!(" {u}")).unwrap_or_default()
-}
-
 /// The acceptance criteria of response `r`, each with its basis.
 fn criteria(study: &Study, r: usize) -> Vec<String> {
     let unit = study
         .responses
         .get(r)
-        .map(|x| unit_suffix(&x.unit))
+        .map(|x| unit_suffix(x.unit.as_deref()))
         .unwrap_or_default();
     let mut out = Vec::new();
     for l in study.limits.iter().filter(|l| l.response == r) {
@@ -257,7 +255,7 @@ fn cautions(study: &Study) -> Vec<String> {
             "{} to {}{}",
             setting_of(f, -1),
             setting_of(f, 1),
-            unit_suffix(&f.unit)
+            unit_suffix(f.unit.as_deref())
         );
         let words: Vec<&str> = name.split(|c: char| !c.is_alphanumeric()).collect();
         let text = if words.contains(&"ph") || unit == "ph" {
@@ -318,7 +316,7 @@ fn power_tables(study: &Study, design: &Design) -> (Vec<PowerTable>, String) {
             if r.candidates.is_empty() {
                 return None;
             }
-            let unit = unit_suffix(&r.unit);
+            let unit = unit_suffix(r.unit.as_deref());
             let basis = format!(
                 "s = {}{unit} per determination ({}), {} determination{} per run, α = {}{}",
                 super::power::number(prec.s),
@@ -476,7 +474,7 @@ pub fn build(study: &Study, design: &Design, lock: &Lock) -> ProtocolContext {
             .iter()
             .map(|f| context::NominalRow {
                 name: f.name.clone(),
-                setting: context::nominal_text(f),
+                setting: nominal_text(f),
             })
             .collect(),
         factors: study
@@ -493,7 +491,7 @@ pub fn build(study: &Study, design: &Design, lock: &Lock) -> ProtocolContext {
             })
             .collect(),
         has_justification: study.factors.iter().any(|f| f.justification.is_some()),
-        design: context::design_words(study, design),
+        design: design_words(study, design),
         sheet_header,
         sheet_rows,
         responses: study

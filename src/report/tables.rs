@@ -54,7 +54,7 @@ pub fn csv_files(evaluated: &Evaluated) -> Vec<(String, Vec<u8>)> {
     // Per response: the determinations as measured, then (where they differ) the value the
     // evaluation used; last, whether the run was excluded and why.
     let used: Vec<bool> = (0..study.responses.len())
-        .map(|r| crate::report::context::has_used_values(evaluated, r))
+        .map(|r| super::run_table::has_used_values(evaluated, r))
         .collect();
     for (r, spec) in study.responses.iter().enumerate() {
         header.push(spec.id.clone());
@@ -69,7 +69,7 @@ pub fn csv_files(evaluated: &Evaluated) -> Vec<(String, Vec<u8>)> {
         .iter()
         .map(|a| a.values.iter().map(|v| (v.run.as_str(), v)).collect())
         .collect();
-    let reasons = super::context::exclusion_reasons(study);
+    let reasons = super::run_table::exclusion_reasons(study);
     let rows: Vec<Vec<String>> =
         design
             .runs_in_order()

@@ -2,8 +2,8 @@
 //! layer because it words the verdicts.
 
 use crate::pipeline::Evaluated;
-use crate::report::conclusion::{PERCENT_DECIMALS, limit_text, sentences};
-use crate::report::format::fixed;
+use crate::report::conclusion::{limit_text, sentences};
+use crate::report::format::{fixed, percent_effect};
 use crate::report::judging;
 
 /// One table per response with both verdicts, then the conclusion.
@@ -15,9 +15,9 @@ pub fn tables(evaluated: &Evaluated) -> String {
         a.study.id,
         a.study.title,
         a.design.kind,
-        a.design.runs,
-        a.design.two_level_runs,
-        a.design.center_points
+        a.design.counts.runs,
+        a.design.counts.two_level_runs,
+        a.design.counts.center_points
     ));
     for r in &a.responses {
         let unit = r.unit.as_deref().unwrap_or("");
@@ -65,7 +65,7 @@ pub fn tables(evaluated: &Evaluated) -> String {
                 e.label,
                 " ".repeat(pad),
                 fixed(e.effect, r.decimals + 1),
-                fixed(e.percent.unwrap_or(f64::NAN), PERCENT_DECIMALS),
+                percent_effect(e.percent),
                 match e.relevant {
                     Some(true) => "yes",
                     Some(false) => "no",

@@ -4,10 +4,7 @@
 use crate::analysis::{Effect, FollowUp, Note, ResponseAnalysis};
 use crate::study::{LimitUnit, Study};
 
-use super::format::{fixed, setting};
-
-/// Percent effects are printed with this many decimals.
-pub const PERCENT_DECIMALS: u32 = 2;
+use super::format::{fixed, percent_effect, setting, unit_suffix};
 
 /// The tested range of a factor in words, e.g. `33 to 37 °C` or `L-0412 and L-0587`.
 pub fn range_text(study: &Study, factor_id: &str) -> String {
@@ -66,15 +63,11 @@ pub fn limit_text(response: &ResponseAnalysis) -> Option<String> {
 }
 
 pub(crate) fn effect_words(response: &ResponseAnalysis, e: &Effect) -> String {
-    let unit = response
-        .unit
-        .as_deref()
-        .map(|u| format!(" {u}"))
-        .unwrap_or_default();
     format!(
-        "{}{unit} ({} %)",
+        "{}{} ({} %)",
         fixed(e.effect, response.decimals + 1),
-        fixed(e.percent.unwrap_or(f64::NAN), PERCENT_DECIMALS)
+        unit_suffix(response.unit.as_deref()),
+        percent_effect(e.percent)
     )
 }
 
@@ -136,23 +129,6 @@ pub(crate) fn trim(v: f64) -> String {
     let t = format!("{v:.2}");
     let t = t.trim_end_matches('0').trim_end_matches('.');
     t.to_string()
-}
-
-pub(crate) fn factor_unit(study: &Study, id: &str) -> String {
-    study
-        .factors
-        .iter()
-        .find(|f| f.id == id)
-        .and_then(|f| f.unit.clone())
-        .map(|u| format!(" {u}"))
-        .unwrap_or_default()
-}
-
-pub(crate) fn unit_suffix(r: &ResponseAnalysis) -> String {
-    r.unit
-        .as_deref()
-        .map(|u| format!(" {u}"))
-        .unwrap_or_default()
 }
 
 pub(crate) fn capitalise(text: &str) -> String {
