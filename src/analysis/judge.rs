@@ -19,7 +19,7 @@ use super::verdict::verdict;
 use super::{
     Effect, LimitSummary, ResponseAnalysis, RunValue, anova, curvature, data_decimals, drift, mean,
 };
-use crate::design::{Design, TermMask, term_factors, term_order};
+use crate::design::{Design, Word};
 use crate::measurements::Measurements;
 use crate::study::{FieldPath, LimitUnit, PercentOf, Study, model::Role};
 
@@ -272,7 +272,7 @@ pub fn analyse_response(
             let is_error = e.dummy
                 || error_masks
                     .iter()
-                    .any(|m| contrast.chain.iter().any(|(t, _)| t == m));
+                    .any(|m| contrast.chain.iter().any(|c| c.word == *m));
             let threshold = critical.e_crit.map(|c| c * e.se_ratio);
             let verdict = if is_error || e.effect.is_nan() {
                 None
@@ -489,7 +489,9 @@ pub(super) fn build_effects<'d>(
         let (Some(e), Some(c)) = (fit.effect(contrast.term), fit.c(contrast.term)) else {
             continue;
         };
-        let dummy = term_factors(contrast.term)
+        let dummy = contrast
+            .term
+            .factors()
             .iter()
             .any(|&j| j >= study.factors.len());
         let label = if contrast.is_clean() {
@@ -498,7 +500,10 @@ pub(super) fn build_effects<'d>(
             contrast
                 .chain
                 .iter()
-                .map(|(t, s)| format!("{}{}", if *s < 0 { "−" } else { "" }, design.label(*t)))
+                .map(|m| {
+                    let sign = if m.sign < 0 { "−" } else { "" };
+                    format!("{sign}{}", design.label(m.word))
+                })
                 .collect::<Vec<_>>()
                 .join(" = ")
         };
@@ -507,7 +512,7 @@ pub(super) fn build_effects<'d>(
             Effect {
                 factors: ids(design, contrast.term),
                 label,
-                order: term_order(contrast.term),
+                order: contrast.term.order(),
                 effect: e,
                 // Against the reference's magnitude, so the percent effect keeps the sign of
                 // the effect when the reference is negative.
@@ -519,7 +524,7 @@ pub(super) fn build_effects<'d>(
                     .chain
                     .iter()
                     .skip(1)
-                    .map(|(t, _)| ids(design, *t))
+                    .map(|m| ids(design, m.word))
                     .collect(),
                 relevant: None,
                 significant: None,
@@ -532,8 +537,8 @@ pub(super) fn build_effects<'d>(
     out
 }
 
-pub(super) fn ids(design: &Design, t: TermMask) -> Vec<String> {
-    term_factors(t)
+pub(super) fn ids(design: &Design, t: Word) -> Vec<String> {
+    t.factors()
         .into_iter()
         .filter_map(|i| design.column_ids.get(i).cloned())
         .collect()
