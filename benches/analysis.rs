@@ -15,7 +15,7 @@ use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
 
 use plateau::analysis::{self, effects};
-use plateau::design::{self, Design, TermMask};
+use plateau::design::{self, Design, Word};
 use plateau::measurements::{self, Measurements};
 use plateau::pipeline;
 use plateau::study::Study;
@@ -182,7 +182,10 @@ fn main() {
             })
             .collect();
         let rows: Vec<&[i8]> = coded.iter().map(Vec::as_slice).collect();
-        let terms: Vec<TermMask> = (1..(1u64 << k)).filter(|m| m.count_ones() <= 2).collect();
+        let terms: Vec<Word> = (1..(1u64 << k))
+            .filter(|m| m.count_ones() <= 2)
+            .map(Word)
+            .collect();
         bench.case(&format!("effects/direct-order2/2^{k}"), n, || {
             terms
                 .iter()

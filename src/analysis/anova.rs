@@ -226,6 +226,7 @@ pub(super) fn from_fit(
 mod tests {
     use super::*;
     use crate::analysis::model::Fit;
+    use crate::design::Word;
     use serde_json::Value;
 
     // Reference values from statsmodels OLS + anova_lm(typ=3) and a pandas groupby for pure
@@ -258,10 +259,15 @@ mod tests {
             .map(|o| (o[0].as_u64().unwrap() as usize, o[1].as_f64().unwrap()))
             .collect();
         let col = |name: &str, run: usize| c["columns"][name][run].as_f64().unwrap();
-        let columns: Vec<(u64, Vec<f64>)> = names
+        let columns: Vec<(Word, Vec<f64>)> = names
             .iter()
             .enumerate()
-            .map(|(j, n)| (1u64 << j, obs.iter().map(|(run, _)| col(n, *run)).collect()))
+            .map(|(j, n)| {
+                (
+                    Word(1u64 << j),
+                    obs.iter().map(|(run, _)| col(n, *run)).collect(),
+                )
+            })
             .collect();
         let y: Vec<f64> = obs.iter().map(|o| o.1).collect();
         let fit = Fit::least_squares(&columns, &y).unwrap();
@@ -285,7 +291,7 @@ mod tests {
             terms: names
                 .iter()
                 .enumerate()
-                .map(|(j, n)| (n.clone(), fit.term_ss(1u64 << j).unwrap()))
+                .map(|(j, n)| (n.clone(), fit.term_ss(Word(1u64 << j)).unwrap()))
                 .collect(),
             curvature_ss: None,
             residual_ss: fit.rss,

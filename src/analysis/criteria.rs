@@ -5,7 +5,7 @@ use super::Effect;
 use super::criterion::{Critical, Method};
 use super::judge::{Problem, problem};
 use super::summary::ErrorEstimate;
-use crate::design::{Design, TermMask, term_order};
+use crate::design::{Design, Word};
 use crate::study::{FieldPath, LimitUnit, Study};
 
 /// Beyond any declared limit; `None` when no declared limit can judge the effect (a percent
@@ -44,7 +44,7 @@ pub(super) fn critical_for(
     n_fit: usize,
     error: &ErrorEstimate,
     field: &FieldPath,
-) -> Result<(Critical, Vec<String>, Vec<TermMask>), Problem> {
+) -> Result<(Critical, Vec<String>, Vec<Word>), Problem> {
     let stat = |e: super::quantile::StatError| {
         problem(
             field.clone(),
@@ -95,7 +95,7 @@ pub(super) fn critical_for(
             for (j, (text, mask)) in rule.terms.iter().enumerate() {
                 let Some((contrast, e)) = effects
                     .iter()
-                    .find(|(c, _)| c.chain.iter().any(|(t, _)| t == mask))
+                    .find(|(c, _)| c.chain.iter().any(|m| m.word.0 == *mask))
                 else {
                     return Err(problem(
                         field.key("terms").index(j),
@@ -103,7 +103,7 @@ pub(super) fn critical_for(
                         "expected a term the design estimates (see the alias table)",
                     ));
                 };
-                if term_order(contrast.term) == 1 {
+                if contrast.term.order() == 1 {
                     return Err(problem(
                         field.key("terms").index(j),
                         format!(

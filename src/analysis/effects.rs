@@ -5,13 +5,13 @@
 //! and the fast Walsh–Hadamard transform for a complete 2^k in standard order, which gives all
 //! 2^k − 1 effects in O(N log N) (Yates 1937's algorithm is the same butterfly).
 
-use crate::design::TermMask;
+use crate::design::Word;
 
 /// The ±1 value of a term's column in one run (0 when any factor sits at its nominal level).
-pub fn column_value(coded: &[i8], term: TermMask) -> i8 {
+pub fn column_value(coded: &[i8], term: Word) -> i8 {
     // Walks the set bits directly: this runs once per run and term, so no allocation here.
     let mut value = 1i8;
-    let mut rest = term;
+    let mut rest = term.0;
     while rest != 0 {
         value *= coded
             .get(rest.trailing_zeros() as usize)
@@ -24,7 +24,7 @@ pub fn column_value(coded: &[i8], term: TermMask) -> i8 {
 
 /// E = ȳ(+) − ȳ(−) of one contrast over two-level runs (`coded` levels, `y` run means).
 /// `None` when one side is empty.
-pub fn effect(rows: &[&[i8]], y: &[f64], term: TermMask) -> Option<f64> {
+pub fn effect(rows: &[&[i8]], y: &[f64], term: Word) -> Option<f64> {
     let (mut plus, mut n_plus, mut minus, mut n_minus) = (0.0, 0usize, 0.0, 0usize);
     for (coded, value) in rows.iter().zip(y) {
         match column_value(coded, term) {
@@ -120,7 +120,7 @@ mod tests {
         let rows: Vec<&[i8]> = coded.iter().map(Vec::as_slice).collect();
         let fast = all_effects_fwht(&PILOT_PLANT).unwrap();
         for m in 1..8u64 {
-            let direct = effect(&rows, &PILOT_PLANT, m).unwrap();
+            let direct = effect(&rows, &PILOT_PLANT, Word(m)).unwrap();
             assert!((direct - fast[m as usize]).abs() < 1e-12);
         }
     }
@@ -129,6 +129,6 @@ mod tests {
     fn effect_of_a_column_with_one_empty_side_is_none() {
         let coded = [vec![1i8], vec![1]];
         let rows: Vec<&[i8]> = coded.iter().map(Vec::as_slice).collect();
-        assert_eq!(effect(&rows, &[1.0, 2.0], 1), None);
+        assert_eq!(effect(&rows, &[1.0, 2.0], Word(1)), None);
     }
 }

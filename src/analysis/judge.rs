@@ -21,7 +21,7 @@ use super::{
     BlockEffect, Effect, FitSummary, LimitSummary, ResponseAnalysis, RunValue, anova, curvature,
     data_decimals, drift, mean,
 };
-use crate::design::{Contrast, Design, PlannedRun, TermMask, term_factors, term_order};
+use crate::design::{Contrast, Design, PlannedRun, Word};
 use crate::measurements::Measurements;
 use crate::study::{
     EffectLimit, FieldPath, LimitUnit, PercentOf, Response, RunId, Study, SuitabilityLimit,
@@ -512,7 +512,7 @@ fn statistical_criteria(
             let is_error = e.dummy
                 || error_masks
                     .iter()
-                    .any(|m| contrast.chain.iter().any(|(t, _)| t == m));
+                    .any(|m| contrast.chain.iter().any(|c| c.word == *m));
             let threshold = critical.e_crit.map(|c| c * e.se_ratio);
             let verdict = if is_error || e.effect.is_nan() {
                 None
@@ -646,7 +646,9 @@ pub(super) fn build_effects<'d>(
         let (Some(e), Some(c)) = (fit.effect(contrast.term), fit.c(contrast.term)) else {
             continue;
         };
-        let dummy = term_factors(contrast.term)
+        let dummy = contrast
+            .term
+            .factors()
             .iter()
             .any(|&j| j >= study.factors.len());
         let label = if contrast.is_clean() {
@@ -655,7 +657,10 @@ pub(super) fn build_effects<'d>(
             contrast
                 .chain
                 .iter()
-                .map(|(t, s)| format!("{}{}", if *s < 0 { "−" } else { "" }, design.label(*t)))
+                .map(|m| {
+                    let sign = if m.sign < 0 { "−" } else { "" };
+                    format!("{sign}{}", design.label(m.word))
+                })
                 .collect::<Vec<_>>()
                 .join(" = ")
         };
@@ -664,7 +669,7 @@ pub(super) fn build_effects<'d>(
             Effect {
                 factors: ids(design, contrast.term),
                 label,
-                order: term_order(contrast.term),
+                order: contrast.term.order(),
                 effect: e,
                 // Against the reference's magnitude, so the percent effect keeps the sign of
                 // the effect when the reference is negative.
@@ -676,7 +681,7 @@ pub(super) fn build_effects<'d>(
                     .chain
                     .iter()
                     .skip(1)
-                    .map(|(t, _)| ids(design, *t))
+                    .map(|m| ids(design, m.word))
                     .collect(),
                 relevant: None,
                 significant: None,
@@ -689,8 +694,8 @@ pub(super) fn build_effects<'d>(
     out
 }
 
-pub(super) fn ids(design: &Design, t: TermMask) -> Vec<String> {
-    term_factors(t)
+pub(super) fn ids(design: &Design, t: Word) -> Vec<String> {
+    t.factors()
         .into_iter()
         .filter_map(|i| design.column_ids.get(i).cloned())
         .collect()

@@ -25,7 +25,7 @@ pub use verdict::{FollowUp, Note, Outcome, UnresolvedChain, Verdict};
 
 use serde::Serialize;
 
-use crate::design::{Design, TermMask, term_factors};
+use crate::design::{Design, Word};
 use crate::measurements::{DataFile, Measurements};
 use crate::study::{Diagnostics, LimitUnit, Study};
 
@@ -402,8 +402,8 @@ pub fn analyse(
 }
 
 fn design_summary(design: &Design) -> DesignSummary {
-    let ids = |t: TermMask| -> Vec<String> {
-        term_factors(t)
+    let ids = |t: Word| -> Vec<String> {
+        t.factors()
             .into_iter()
             .filter_map(|i| design.column_ids.get(i).cloned())
             .collect()
@@ -428,7 +428,7 @@ fn design_summary(design: &Design) -> DesignSummary {
             .iter()
             .map(|c| AliasEntry {
                 label: design.label(c.term),
-                chain: c.chain.iter().map(|(t, _)| ids(*t)).collect(),
+                chain: c.chain.iter().map(|m| ids(m.word)).collect(),
             })
             .collect(),
     }

@@ -9,7 +9,7 @@
 
 use nalgebra::{DMatrix, DVector};
 
-use crate::design::TermMask;
+use crate::design::Word;
 
 /// Relative size below which a column is taken as a linear combination of the columns kept
 /// before it (Gram–Schmidt residual norm over the column's own norm).
@@ -19,10 +19,10 @@ const DEPENDENCE_TOLERANCE: f64 = 1e-9;
 #[derive(Debug, Clone)]
 pub struct Fit {
     /// The terms with a coefficient, in the order they were offered.
-    pub terms: Vec<TermMask>,
+    pub terms: Vec<Word>,
     /// Terms offered but left out because the runs used cannot separate them from the terms
     /// kept before them.
-    pub dropped: Vec<TermMask>,
+    pub dropped: Vec<Word>,
     /// b₀ (the intercept: the predicted response at the centre of the coded cube).
     pub intercept: f64,
     /// b_j per kept term, in `terms` order.
@@ -44,7 +44,7 @@ impl Fit {
     /// The fit of an orthogonal, balanced design from its effects: b₀ = ȳ, b_j = E_j/2,
     /// c_jj = 1/N, RSS = Σ(y − ȳ)² − N·Σb_j² (the columns are orthogonal, so each removes
     /// N·b_j² from the total).
-    pub fn orthogonal(y: &[f64], terms: Vec<TermMask>, effects: &[f64]) -> Fit {
+    pub fn orthogonal(y: &[f64], terms: Vec<Word>, effects: &[f64]) -> Fit {
         let n = y.len();
         let nf = n as f64;
         let mean = y.iter().sum::<f64>() / nf;
@@ -76,7 +76,7 @@ impl Fit {
     /// columns kept before it (modified Gram–Schmidt), so main effects, offered first, are
     /// kept before the interactions they could be confused with. `None` when there are no
     /// observations.
-    pub fn least_squares(columns: &[(TermMask, Vec<f64>)], y: &[f64]) -> Option<Fit> {
+    pub fn least_squares(columns: &[(Word, Vec<f64>)], y: &[f64]) -> Option<Fit> {
         let n = y.len();
         if n == 0 {
             return None;
@@ -148,13 +148,13 @@ impl Fit {
     }
 
     /// The effect E_j = 2·b_j of a kept term.
-    pub fn effect(&self, term: TermMask) -> Option<f64> {
+    pub fn effect(&self, term: Word) -> Option<f64> {
         let j = self.terms.iter().position(|t| *t == term)?;
         self.coefficients.get(j).map(|b| 2.0 * b)
     }
 
     /// [(XᵀX)⁻¹]_jj of a kept term.
-    pub fn c(&self, term: TermMask) -> Option<f64> {
+    pub fn c(&self, term: Word) -> Option<f64> {
         let j = self.terms.iter().position(|t| *t == term)?;
         self.c_diag.get(j).copied()
     }
@@ -196,7 +196,7 @@ impl Fit {
     /// Type III sum of squares of one kept term, b_j²/[(XᵀX)⁻¹]_jj: the rise of the residual
     /// sum of squares when the term is dropped (Searle, Linear Models, 1971, §5.5 from memory, the
     /// one-degree-of-freedom case; equal to N·E²/4 in an orthogonal design).
-    pub fn term_ss(&self, term: TermMask) -> Option<f64> {
+    pub fn term_ss(&self, term: Word) -> Option<f64> {
         let j = self.terms.iter().position(|t| *t == term)?;
         let b = self.coefficients.get(j)?;
         let c = self.c_diag.get(j)?;
@@ -222,14 +222,15 @@ mod tests {
             .map(|r| 10.0 + r[0] - 2.0 * r[1] + 0.5 * r[0] * r[1])
             .collect();
         let ab: Vec<f64> = rows.iter().map(|r| r[0] * r[1]).collect();
-        let cols = vec![(1, column(&rows, 0)), (2, column(&rows, 1)), (3, ab)];
+        let (a, b) = (Word(1), Word(2));
+        let cols = vec![(a, column(&rows, 0)), (b, column(&rows, 1)), (Word(3), ab)];
         let ls = Fit::least_squares(&cols, &y).unwrap();
         assert!(ls.orthogonal);
-        assert!((ls.effect(1).unwrap() - 2.0).abs() < 1e-12);
-        assert!((ls.effect(2).unwrap() + 4.0).abs() < 1e-12);
-        assert!((ls.effect(3).unwrap() - 1.0).abs() < 1e-12);
-        assert!((ls.c(1).unwrap() - 0.25).abs() < 1e-12);
-        let orth = Fit::orthogonal(&y, vec![1, 2, 3], &[2.0, -4.0, 1.0]);
+        assert!((ls.effect(a).unwrap() - 2.0).abs() < 1e-12);
+        assert!((ls.effect(b).unwrap() + 4.0).abs() < 1e-12);
+        assert!((ls.effect(Word(3)).unwrap() - 1.0).abs() < 1e-12);
+        assert!((ls.c(a).unwrap() - 0.25).abs() < 1e-12);
+        let orth = Fit::orthogonal(&y, [1, 2, 3].map(Word).to_vec(), &[2.0, -4.0, 1.0]);
         assert_eq!(orth.rss, 0.0);
         assert!((orth.intercept - ls.intercept).abs() < 1e-12);
         assert_eq!(
@@ -242,9 +243,9 @@ mod tests {
     fn a_column_equal_to_another_is_dropped_and_named() {
         let a = vec![-1.0, 1.0, -1.0, 1.0, 1.0];
         let y = vec![1.0, 2.0, 1.5, 2.5, 2.0];
-        let fit = Fit::least_squares(&[(1, a.clone()), (2, a)], &y).unwrap();
-        assert_eq!(fit.terms, vec![1]);
-        assert_eq!(fit.dropped, vec![2]);
+        let fit = Fit::least_squares(&[(Word(1), a.clone()), (Word(2), a)], &y).unwrap();
+        assert_eq!(fit.terms, vec![Word(1)]);
+        assert_eq!(fit.dropped, vec![Word(2)]);
         assert_eq!(fit.df_residual(), 3);
     }
 }

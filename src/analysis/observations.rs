@@ -7,7 +7,7 @@ use std::collections::BTreeMap;
 use super::model::Fit;
 use super::summary::{ErrorEstimate, Repeatability};
 use super::{effects, mean};
-use crate::design::{Design, TermMask, term_factors, term_order};
+use crate::design::{Design, Word};
 use crate::measurements::Measurements;
 use crate::study::{Levels, Study};
 
@@ -26,7 +26,7 @@ pub const DRIFT_ALPHA: f64 = 0.05;
 
 /// The fit's column for the block of follow-up runs: −1 in block 1, +1 in block 2 (a term
 /// mask above every factor column, so it never names a factor).
-pub const BLOCK_TERM: TermMask = 1 << 63;
+pub const BLOCK_TERM: Word = Word(1 << 63);
 
 /// The used two-level runs (coded rows and values) and the used nominal values.
 pub(super) fn split_runs<'a>(
@@ -72,7 +72,7 @@ pub(super) fn fit_model(
         let mut values = Vec::with_capacity(design.contrasts.len());
         for c in &design.contrasts {
             let e = match &all {
-                Some(all) => all.get(c.term as usize).copied(),
+                Some(all) => all.get(c.term.0 as usize).copied(),
                 None => effects::effect(rows, y, c.term),
             };
             if let Some(e) = e {
@@ -93,7 +93,7 @@ pub(super) fn fit_model(
                 .collect::<Vec<f64>>(),
         )
     });
-    let columns: Vec<(TermMask, Vec<f64>)> = block_column
+    let columns: Vec<(Word, Vec<f64>)> = block_column
         .into_iter()
         .chain(least_squares_terms(design).into_iter().map(|c| {
             (
@@ -118,7 +118,7 @@ pub(super) fn least_squares_terms(design: &Design) -> Vec<&crate::design::Contra
     let mut offered: Vec<&crate::design::Contrast> = design.contrasts.iter().collect();
     for order in [2, 1] {
         if offered.len() > MAX_LEAST_SQUARES_TERMS {
-            offered.retain(|c| term_order(c.term) <= order);
+            offered.retain(|c| c.term.order() <= order);
         }
     }
     offered
@@ -140,7 +140,7 @@ pub(super) fn nominal_point(study: &Study, design: &Design, fit: &Fit) -> Vec<f6
             if *t == BLOCK_TERM {
                 -1.0 // nominal runs belong to the first runs
             } else {
-                term_factors(*t).into_iter().map(level).product()
+                t.factors().into_iter().map(level).product()
             }
         })
         .collect()

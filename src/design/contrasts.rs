@@ -14,15 +14,15 @@ const MAX_TERMS_SEARCHED: usize = 1 << 14;
 pub fn contrasts_from_matrix(matrix: &[Vec<i8>], k: usize) -> Vec<Contrast> {
     let n = matrix.len();
     let k = k.min(63);
-    let mut terms: Vec<TermMask> = Vec::new();
+    let mut terms: Vec<Word> = Vec::new();
     for order in 1..=k {
         let count = binomial(k, order);
         if terms.len() + count > MAX_TERMS_SEARCHED {
             break;
         }
-        terms.extend(masks_of_order(k, order));
+        terms.extend(word::terms_of_order(k, order as u32));
     }
-    terms.sort_by(|a, b| term_cmp(*a, *b));
+    terms.sort_by(word::display_cmp);
     // Each column of ±1 as a bit pattern (bit set = −1): a term's column is the XOR of its
     // factors' patterns, and the dot product of two columns is n − 2·popcount(a XOR b), so the
     // search over every kept column costs n/64 word operations per pair, not n products.
@@ -57,7 +57,7 @@ pub fn contrasts_from_matrix(matrix: &[Vec<i8>], k: usize) -> Vec<Contrast> {
     };
     'terms: for term in terms {
         let mut col = vec![0u64; words];
-        for j in term_factors(term) {
+        for j in term.factors() {
             if let Some(f) = factor_bits.get(j) {
                 for (c, b) in col.iter_mut().zip(f) {
                     *c ^= *b;
@@ -73,7 +73,7 @@ pub fn contrasts_from_matrix(matrix: &[Vec<i8>], k: usize) -> Vec<Contrast> {
         if let Some(&at) = by_pattern.get(&pattern) {
             let kept_flipped = kept[at].1.first().is_some_and(|w| w & 1 == 1);
             let sign = if flipped == kept_flipped { 1 } else { -1 };
-            kept[at].0.chain.push((term, sign));
+            kept[at].0.chain.push(SignedWord { word: term, sign });
             continue 'terms;
         }
         // With n − 1 mutually orthogonal columns kept the basis is complete: any other column
@@ -93,13 +93,7 @@ pub fn contrasts_from_matrix(matrix: &[Vec<i8>], k: usize) -> Vec<Contrast> {
             }
         }
         by_pattern.insert(pattern, kept.len());
-        kept.push((
-            Contrast {
-                term,
-                chain: vec![(term, 1)],
-            },
-            col,
-        ));
+        kept.push((Contrast::clean(term), col));
     }
     kept.into_iter().map(|(c, _)| c).collect()
 }
@@ -156,24 +150,6 @@ pub(super) fn valid_mask(n: usize, w: usize) -> u64 {
     }
 }
 
-/// Every mask of `k` bits with exactly `order` set, in increasing order (Gosper's hack,
-/// HAKMEM item 175), without visiting the other 2^k masks.
-pub(super) fn masks_of_order(k: usize, order: usize) -> Vec<TermMask> {
-    let mut out = Vec::new();
-    if order == 0 || order > k || k > 63 {
-        return out;
-    }
-    let limit: u64 = 1 << k;
-    let mut m: u64 = (1 << order) - 1;
-    while m < limit {
-        out.push(m);
-        let c = m & m.wrapping_neg();
-        let r = m + c;
-        m = (((r ^ m) >> 2) / c) | r;
-    }
-    out
-}
-
 pub(super) fn binomial(n: usize, k: usize) -> usize {
     (0..k).fold(1usize, |acc, i| acc.saturating_mul(n - i) / (i + 1))
 }
@@ -200,15 +176,21 @@ mod tests {
         assert!(!is_regular(&pb, 11));
         let contrasts = contrasts_from_matrix(&pb, 11);
         assert_eq!(contrasts.len(), 11, "main effects only");
-        assert!(contrasts.iter().all(|c| c.term.count_ones() == 1));
-        assert_eq!(masks_of_order(4, 2), vec![3, 5, 6, 9, 10, 12]);
+        assert!(contrasts.iter().all(|c| c.term.0.count_ones() == 1));
+        assert_eq!(
+            word::terms_of_order(4, 2),
+            [3, 5, 6, 9, 10, 12].map(Word).to_vec()
+        );
     }
 
     #[test]
     fn terms_sort_by_order_then_factors() {
-        let mut terms = vec![0b111, 0b110, 0b010, 0b011, 0b001, 0b101, 0b100];
-        terms.sort_by(|a, b| term_cmp(*a, *b));
-        assert_eq!(terms, vec![0b001, 0b010, 0b100, 0b011, 0b101, 0b110, 0b111]);
+        let mut terms = [0b111, 0b110, 0b010, 0b011, 0b001, 0b101, 0b100].map(Word);
+        terms.sort_by(word::display_cmp);
+        assert_eq!(
+            terms,
+            [0b001, 0b010, 0b100, 0b011, 0b101, 0b110, 0b111].map(Word)
+        );
     }
 
     #[test]
@@ -237,7 +219,11 @@ mod tests {
             .collect();
         let contrasts = contrasts_from_matrix(&matrix, 3);
         assert_eq!(contrasts.len(), 3);
-        let c = contrasts.iter().find(|c| c.term == 0b100).unwrap();
-        assert_eq!(c.chain, vec![(0b100, 1), (0b011, 1)]);
+        let c = contrasts.iter().find(|c| c.term == Word(0b100)).unwrap();
+        let member = |bits, sign| SignedWord {
+            word: Word(bits),
+            sign,
+        };
+        assert_eq!(c.chain, vec![member(0b100, 1), member(0b011, 1)]);
     }
 }

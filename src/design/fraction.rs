@@ -7,20 +7,9 @@ use std::collections::HashMap;
 use serde::Serialize;
 use thiserror::Error;
 
+use super::Contrast;
 use super::generator::{Generator, GeneratorError, MAX_GENERATORS};
 use super::word::{MAX_FACTORS, SignedWord, Word, display_cmp, factor_label, terms_of_order};
-
-/// One estimable contrast column of a regular design and the effects it carries.
-#[derive(Clone, PartialEq, Debug, Serialize)]
-pub struct Contrast {
-    /// The lowest-order member of the alias set (ties broken by display order); the column of
-    /// the design that estimates the chain.
-    pub column: Word,
-    /// Members of the alias set up to the requested order, signs relative to `column`; the
-    /// first entry is `column` itself with sign +1 (kept even when its order exceeds the
-    /// requested order, so a chain is never empty).
-    pub chain: Vec<SignedWord>,
-}
 
 /// A regular two-level fractional factorial design 2^(k−p).
 #[derive(Clone, PartialEq, Debug, Serialize)]
@@ -445,12 +434,9 @@ fn contrasts_of(k: usize, defining: &[SignedWord], max_order: u32) -> Vec<Contra
             word: w,
             sign: signs.get(&w.times(lead)).copied().unwrap_or(1),
         }));
-        out.push(Contrast {
-            column: lead,
-            chain,
-        });
+        out.push(Contrast { term: lead, chain });
     }
-    out.sort_by(|a, b| display_cmp(&a.column, &b.column));
+    out.sort_by(|a, b| display_cmp(&a.term, &b.term));
     out
 }
 

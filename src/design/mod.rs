@@ -18,8 +18,7 @@ pub mod word;
 
 use crate::study::{DesignKind, Diagnostics, FieldPath, RunId, Study};
 
-/// A term (main effect or interaction) as a bit set of factor indices.
-pub type TermMask = u64;
+pub use word::{SignedWord, Word};
 
 /// One planned run.
 #[derive(Debug, Clone, serde::Serialize)]
@@ -39,17 +38,27 @@ pub struct PlannedRun {
     pub block: u8,
 }
 
-/// One estimable contrast column and what it estimates.
-#[derive(Debug, Clone, serde::Serialize)]
+/// One estimable contrast column and the effects it carries (its alias chain).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Contrast {
-    /// The term the column is named after (lowest order in its chain).
-    pub term: TermMask,
-    /// Every term sharing this column (up to the order shown), with its sign relative to `term`;
-    /// the first is `term` itself.
-    pub chain: Vec<(TermMask, i8)>,
+    /// The term the column is named after: the lowest-order member of its chain (ties broken
+    /// by display order).
+    pub term: Word,
+    /// Every term sharing this column (up to the order shown), with its sign relative to
+    /// `term`; the first is `term` itself with sign +1 (kept even when its order exceeds the
+    /// order shown, so a chain is never empty).
+    pub chain: Vec<SignedWord>,
 }
 
 impl Contrast {
+    /// A column that estimates `term` alone.
+    pub fn clean(term: Word) -> Contrast {
+        Contrast {
+            term,
+            chain: vec![SignedWord::plus(term)],
+        }
+    }
+
     /// True when no other term shares the column, so the estimate belongs to `term` alone.
     pub fn is_clean(&self) -> bool {
         self.chain.len() == 1
@@ -131,8 +140,8 @@ impl Design {
     }
 
     /// Label of a term from factor ids, joined by `×` (e.g. `temp×ph`).
-    pub fn label(&self, term: TermMask) -> String {
-        term_factors(term)
+    pub fn label(&self, term: Word) -> String {
+        term.factors()
             .into_iter()
             .filter_map(|i| self.column_ids.get(i).map(String::as_str))
             .collect::<Vec<_>>()
@@ -145,23 +154,6 @@ impl Design {
         runs.sort_by_key(|r| r.order);
         runs
     }
-}
-
-/// The factor indices of a term, ascending.
-pub fn term_factors(term: TermMask) -> Vec<usize> {
-    (0..64).filter(|i| term >> i & 1 == 1).collect()
-}
-
-/// The order of a term (number of factors).
-pub fn term_order(term: TermMask) -> u32 {
-    term.count_ones()
-}
-
-/// Display order of terms: by order, then by factor indices (A, B, AB, AC, BC, ABC).
-pub fn term_cmp(a: TermMask, b: TermMask) -> std::cmp::Ordering {
-    term_order(a)
-        .cmp(&term_order(b))
-        .then_with(|| term_factors(a).cmp(&term_factors(b)))
 }
 
 pub use contrasts::contrasts_from_matrix;

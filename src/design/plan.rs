@@ -123,13 +123,6 @@ pub(super) fn regular_fraction(
     };
     let n = rows.len();
     let replicates = request.replicates.max(1);
-    let contrasts: Vec<Contrast> = contrasts
-        .into_iter()
-        .map(|c| Contrast {
-            term: c.column.0,
-            chain: c.chain.iter().map(|w| (w.word.0, w.sign)).collect(),
-        })
-        .collect();
     let structure = Structure {
         generators,
         catalogue,
@@ -176,10 +169,7 @@ pub(super) fn plackett_burman(study: &Study, n: usize) -> Result<Design, Diagnos
         rows.extend(mirror);
     }
     let contrasts = (0..columns)
-        .map(|j| Contrast {
-            term: 1u64 << j,
-            chain: vec![(1u64 << j, 1)],
-        })
+        .map(|j| Contrast::clean(Word(1u64 << j)))
         .collect();
     let factor_cols: Vec<usize> = (0..k).collect();
     let partial = crate::design::aliasing::interaction_correlations(&rows, &factor_cols)
@@ -231,13 +221,8 @@ pub(super) fn full_factorial(study: &Study) -> Design {
             two_level.push((RunId((r * n + i + 1).to_string()), coded, r + 1));
         }
     }
-    let mut contrasts: Vec<Contrast> = (1..(1u64 << k))
-        .map(|m| Contrast {
-            term: m,
-            chain: vec![(m, 1)],
-        })
-        .collect();
-    contrasts.sort_by(|a, b| term_cmp(a.term, b.term));
+    let mut contrasts: Vec<Contrast> = (1..(1u64 << k)).map(|m| Contrast::clean(Word(m))).collect();
+    contrasts.sort_by(|a, b| word::display_cmp(&a.term, &b.term));
     let nominal_ids: Vec<RunId> = (0..study.design.center_points)
         .map(|c| RunId((n * replicates + c + 1).to_string()))
         .collect();
@@ -371,19 +356,14 @@ pub(super) fn explicit(study: &Study) -> Result<Design, Diagnostics> {
     let contrasts = if orthogonal {
         // Chains shown up to the declared alias order, as for a regular fraction.
         let mut contrasts = contrasts_from_matrix(&matrix, k);
-        contrasts.retain(|c| term_order(c.term) <= alias_order);
+        contrasts.retain(|c| c.term.order() <= alias_order);
         for c in &mut contrasts {
-            c.chain.retain(|(t, _)| term_order(*t) <= alias_order);
+            c.chain.retain(|m| m.word.order() <= alias_order);
         }
         contrasts
     } else {
         // Only main effects can be fitted by least squares from a non-orthogonal matrix.
-        (0..k)
-            .map(|j| Contrast {
-                term: 1u64 << j,
-                chain: vec![(1u64 << j, 1)],
-            })
-            .collect()
+        (0..k).map(|j| Contrast::clean(Word(1u64 << j))).collect()
     };
     let n = matrix.len();
     let mut runs: Vec<PlannedRun> = Vec::new();

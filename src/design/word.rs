@@ -17,7 +17,8 @@ const LETTERS: [char; 25] = [
     'U', 'V', 'W', 'X', 'Y', 'Z',
 ];
 
-/// A product of factor columns, stored as a bit set over factor indices (bit i = factor i).
+/// A product of factor columns, stored as a bit set over factor indices (bit i = factor i):
+/// an effect term (main effect or interaction) or a word of a defining relation.
 ///
 /// Multiplying two words is the exclusive or of their bits: a letter that appears twice
 /// cancels, because the elementwise square of a ±1 column is the identity column I

@@ -151,11 +151,11 @@ pub fn design_words(study: &crate::study::Study, design: &crate::design::Design)
             chain: c
                 .chain
                 .iter()
-                .map(|(t, s)| {
+                .map(|m| {
                     format!(
                         "{}{}",
-                        if *s < 0 { "\u{2212}" } else { "" },
-                        design.label(*t)
+                        if m.sign < 0 { "\u{2212}" } else { "" },
+                        design.label(m.word)
                     )
                 })
                 .collect::<Vec<_>>()

@@ -201,7 +201,7 @@ proptest! {
         let b = least_squares(&rows, y, &terms).unwrap();
         prop_assert!(close(fast[0], b[0]), "mean: fwht {} vs b0 {}", fast[0], b[0]);
         for (j, &t) in terms.iter().enumerate() {
-            let direct = effect(&refs, y, t).unwrap();
+            let direct = effect(&refs, y, Word(t)).unwrap();
             let fitted = 2.0 * b[j + 1];
             prop_assert!(close(fast[t as usize], direct), "term {t:b}: fwht {} vs direct {direct}", fast[t as usize]);
             prop_assert!(close(direct, fitted), "term {t:b}: direct {direct} vs 2b {fitted}");
@@ -242,11 +242,11 @@ proptest! {
         let refs: Vec<&[i8]> = rows.iter().map(Vec::as_slice).collect();
         let contrasts = fraction.contrasts(k as u32);
         prop_assert_eq!(contrasts.len(), n - 1);
-        let terms: Vec<u64> = contrasts.iter().map(|c| c.column.0).collect();
+        let terms: Vec<u64> = contrasts.iter().map(|c| c.term.0).collect();
         let b = least_squares(&rows, y, &terms).unwrap();
         let fast = all_effects_fwht(y).unwrap();
         for (j, c) in contrasts.iter().enumerate() {
-            let t = c.column.0;
+            let t = c.term.0;
             // The column of t is ± a product of base columns: substitute each generated
             // factor by its generator, then read that base word off the transform.
             let (mut mask, mut sign) = (0usize, 1.0);
@@ -262,13 +262,13 @@ proptest! {
                 }
             }
             let via_fwht = sign * fast[mask];
-            let direct = effect(&refs, y, t).unwrap();
+            let direct = effect(&refs, y, Word(t)).unwrap();
             let fitted = 2.0 * b[j + 1];
             prop_assert!(close(via_fwht, direct), "column {t:b}: fwht {via_fwht} vs direct {direct}");
             prop_assert!(close(direct, fitted), "column {t:b}: direct {direct} vs 2b {fitted}");
             // Every alias in the chain estimates the same number, up to its sign.
             for w in &c.chain {
-                let alias = effect(&refs, y, w.word.0).unwrap();
+                let alias = effect(&refs, y, w.word).unwrap();
                 prop_assert!(close(alias, f64::from(w.sign) * direct), "alias {:b} of {t:b}: {alias} vs {direct}", w.word.0);
             }
         }

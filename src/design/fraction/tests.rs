@@ -71,9 +71,9 @@ fn youden_steiner_main_effects_each_carry_three_two_factor_interactions() {
     let contrasts = f.contrasts(2);
     assert_eq!(contrasts.len(), 7);
     for c in &contrasts {
-        assert_eq!(c.column.order(), 1);
+        assert_eq!(c.term.order(), 1);
         let twofi = c.chain.iter().filter(|m| m.word.order() == 2).count();
-        assert_eq!(twofi, 3, "chain of {}", letters(c.column));
+        assert_eq!(twofi, 3, "chain of {}", letters(c.term));
     }
     assert_eq!(
         chain_names(&contrasts[0].chain),
@@ -188,9 +188,9 @@ fn contrasts_order_main_effects_first() {
     let f = fraction(6, &["E = ABC", "F = BCD"]);
     let c = f.contrasts(2);
     assert_eq!(c.len(), 15);
-    let leads: Vec<String> = c.iter().map(|c| letters(c.column)).collect();
+    let leads: Vec<String> = c.iter().map(|c| letters(c.term)).collect();
     assert_eq!(&leads[..6], &["A", "B", "C", "D", "E", "F"]);
-    assert!(c[6..].iter().all(|c| c.column.order() >= 2));
+    assert!(c[6..].iter().all(|c| c.term.order() >= 2));
 }
 
 #[test]
@@ -212,7 +212,7 @@ fn fold_over_of_youden_steiner_gives_resolution_four() {
     assert_eq!(folded.word_length_pattern, vec![0, 7, 0, 0, 0]);
     let c = folded.contrasts(2);
     assert_eq!(c.len(), 15);
-    for main in c.iter().filter(|c| c.column.order() == 1) {
+    for main in c.iter().filter(|c| c.term.order() == 1) {
         assert_eq!(main.chain.len(), 1);
     }
     let brute = chains_by_brute_force(&folded.runs, 2);
@@ -424,7 +424,7 @@ fn signed_chains_agree_with_matrix(f: &Fraction, max_order: u32) -> Result<(), T
             .collect()
     };
     for c in f.contrasts(max_order) {
-        let lead = column(c.column);
+        let lead = column(c.term);
         for member in &c.chain {
             let col: Vec<i8> = column(member.word)
                 .iter()
