@@ -86,30 +86,16 @@ pub struct DesignSummary {
     pub counts: RunCounts,
     /// Seed of the run order, if randomised.
     pub seed: Option<u64>,
-    /// Generators as written (fractional designs).
-    pub generators: Vec<String>,
-    /// Where the generators came from, when chosen from the catalogue.
-    pub catalogue: Option<String>,
-    /// The defining relation, one word per entry (`I = A×B×C`).
-    pub defining_relation: Vec<String>,
-    /// Resolution of a regular fraction.
-    pub resolution: Option<u32>,
-    /// Word-length pattern (A_3, A_4, ...).
-    pub word_length_pattern: Vec<usize>,
-    /// The Youden–Steiner 7-in-8 design.
-    pub youden: bool,
-    /// Mirror-image runs added.
-    pub folded: bool,
+    /// Generators, defining relation, resolution, fold-over and aliasing, as planned
+    /// (serialized inline: `generators`, `resolution`, ...).
+    #[serde(flatten)]
+    pub structure: crate::design::Structure,
     /// Dummy columns (ids).
     pub dummies: Vec<String>,
     /// Effects by least squares (a non-orthogonal explicit design).
     pub least_squares: bool,
-    /// Highest interaction order in the alias chains.
-    pub alias_order: u32,
     /// For each estimated column, its alias chain as lists of factor-id lists.
     pub aliases: Vec<AliasEntry>,
-    /// Partial aliasing of two-factor interactions with main effects (non-regular designs).
-    pub partial_aliases: Vec<crate::design::PartialAliasText>,
 }
 
 /// How many runs a design has, of each sort; the analysis document and the chapter's design
@@ -412,17 +398,9 @@ fn design_summary(design: &Design) -> DesignSummary {
         kind: design.kind.as_str().to_string(),
         counts: RunCounts::of(design),
         seed: design.seed,
-        generators: design.structure.generators.clone(),
-        catalogue: design.structure.catalogue.clone(),
-        defining_relation: design.structure.defining_relation.clone(),
-        resolution: design.structure.resolution,
-        word_length_pattern: design.structure.word_length_pattern.clone(),
-        youden: design.structure.youden,
-        folded: design.structure.folded,
+        structure: design.structure.clone(),
         dummies: dummy_ids(design),
         least_squares: design.least_squares,
-        alias_order: design.structure.alias_order,
-        partial_aliases: design.structure.partial_aliases.clone(),
         aliases: design
             .contrasts
             .iter()

@@ -547,7 +547,7 @@ fn overall(study: &Study, analysis: &Analysis) -> Vec<String> {
 fn limitations(analysis: &Analysis) -> Vec<String> {
     let mut out = Vec::new();
     let two_level = analysis.design.counts.two_level_runs;
-    match (analysis.design.kind.as_str(), analysis.design.resolution) {
+    match (analysis.design.kind.as_str(), analysis.design.structure.resolution) {
         ("plackett-burman", _) => out.push(
             "A Plackett–Burman design estimates main effects only: two-factor interactions are partially aliased with them and cannot be seen.".to_string(),
         ),
