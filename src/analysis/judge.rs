@@ -10,6 +10,7 @@
 
 use super::criteria::{critical_for, relevance};
 use super::criterion::Method;
+use super::effect_rows::build_effects;
 use super::model::Fit;
 use super::observations::{
     BLOCK_TERM, Runs, error_estimate, fit_model, nominal_point, repeatability, split_runs,
@@ -21,7 +22,7 @@ use super::{
     BlockEffect, Effect, FitSummary, LimitSummary, ResponseAnalysis, RunValue, anova, curvature,
     data_decimals, drift, mean,
 };
-use crate::design::{Contrast, Design, PlannedRun, Word};
+use crate::design::{Contrast, Design, PlannedRun};
 use crate::measurements::Measurements;
 use crate::study::{
     EffectLimit, FieldPath, LimitUnit, PercentOf, Response, RunId, Study, SuitabilityLimit,
@@ -631,72 +632,4 @@ fn fit_summary(design: &Design, fit: &Fit) -> FitSummary {
         orthogonal: fit.orthogonal,
         dropped: fit.dropped.iter().map(|t| design.label(*t)).collect(),
     }
-}
-
-pub(super) fn build_effects<'d>(
-    study: &Study,
-    design: &'d Design,
-    fit: &Fit,
-    reference: f64,
-    percent_defined: bool,
-) -> Vec<(&'d crate::design::Contrast, Effect)> {
-    let n = fit.n as f64;
-    let mut out = Vec::with_capacity(fit.terms.len());
-    for contrast in &design.contrasts {
-        let (Some(e), Some(c)) = (fit.effect(contrast.term), fit.c(contrast.term)) else {
-            continue;
-        };
-        let dummy = contrast
-            .term
-            .factors()
-            .iter()
-            .any(|&j| j >= study.factors.len());
-        let label = if contrast.is_clean() {
-            design.label(contrast.term)
-        } else {
-            contrast
-                .chain
-                .iter()
-                .map(|m| {
-                    let sign = if m.sign < 0 { "−" } else { "" };
-                    format!("{sign}{}", design.label(m.word))
-                })
-                .collect::<Vec<_>>()
-                .join(" = ")
-        };
-        out.push((
-            contrast,
-            Effect {
-                factors: ids(design, contrast.term),
-                label,
-                order: contrast.term.order(),
-                effect: e,
-                // Against the reference's magnitude, so the percent effect keeps the sign of
-                // the effect when the reference is negative.
-                percent: percent_defined.then(|| 100.0 * e / reference.abs()),
-                se_ratio: (n * c).sqrt(),
-                estimable: contrast.is_clean(),
-                dummy,
-                aliases: contrast
-                    .chain
-                    .iter()
-                    .skip(1)
-                    .map(|m| ids(design, m.word))
-                    .collect(),
-                relevant: None,
-                significant: None,
-                e_crit: None,
-                significance: Vec::new(),
-                exceeds_sme: None,
-            },
-        ));
-    }
-    out
-}
-
-pub(super) fn ids(design: &Design, t: Word) -> Vec<String> {
-    t.factors()
-        .into_iter()
-        .filter_map(|i| design.column_ids.get(i).cloned())
-        .collect()
 }

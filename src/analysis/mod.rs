@@ -9,6 +9,7 @@ pub mod criterion;
 pub mod curvature;
 pub mod decision;
 pub mod drift;
+mod effect_rows;
 pub mod effects;
 pub mod judge;
 pub mod model;
@@ -25,7 +26,7 @@ pub use verdict::{FollowUp, Note, Outcome, UnresolvedChain, Verdict};
 
 use serde::Serialize;
 
-use crate::design::{Design, Word};
+use crate::design::Design;
 use crate::measurements::{DataFile, Measurements};
 use crate::study::{Diagnostics, LimitUnit, Study};
 
@@ -388,12 +389,6 @@ pub fn analyse(
 }
 
 fn design_summary(design: &Design) -> DesignSummary {
-    let ids = |t: Word| -> Vec<String> {
-        t.factors()
-            .into_iter()
-            .filter_map(|i| design.column_ids.get(i).cloned())
-            .collect()
-    };
     DesignSummary {
         kind: design.kind.as_str().to_string(),
         counts: RunCounts::of(design),
@@ -406,7 +401,11 @@ fn design_summary(design: &Design) -> DesignSummary {
             .iter()
             .map(|c| AliasEntry {
                 label: design.label(c.term),
-                chain: c.chain.iter().map(|m| ids(m.word)).collect(),
+                chain: c
+                    .chain
+                    .iter()
+                    .map(|m| effect_rows::ids(design, m.word))
+                    .collect(),
             })
             .collect(),
     }
