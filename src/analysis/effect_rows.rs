@@ -27,15 +27,7 @@ pub(super) fn build_effects<'d>(
         let label = if contrast.is_clean() {
             design.label(contrast.term)
         } else {
-            contrast
-                .chain
-                .iter()
-                .map(|m| {
-                    let sign = if m.sign < 0 { "−" } else { "" };
-                    format!("{sign}{}", design.label(m.word))
-                })
-                .collect::<Vec<_>>()
-                .join(" = ")
+            design.chain_label(contrast)
         };
         out.push((
             contrast,

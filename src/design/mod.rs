@@ -148,6 +148,20 @@ impl Design {
             .join("×")
     }
 
+    /// The alias chain of a contrast in factor ids, e.g. `temp×ph = −flow`: the words
+    /// sharing its column, each with its sign relative to the first.
+    pub fn chain_label(&self, contrast: &Contrast) -> String {
+        contrast
+            .chain
+            .iter()
+            .map(|m| {
+                let sign = if m.sign < 0 { "\u{2212}" } else { "" };
+                format!("{sign}{}", self.label(m.word))
+            })
+            .collect::<Vec<_>>()
+            .join(" = ")
+    }
+
     /// Runs in executed order.
     pub fn runs_in_order(&self) -> Vec<&PlannedRun> {
         let mut runs: Vec<&PlannedRun> = self.runs.iter().collect();

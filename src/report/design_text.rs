@@ -148,18 +148,7 @@ pub fn design_words(study: &crate::study::Study, design: &crate::design::Design)
         .filter(|c| !c.is_clean())
         .map(|c| AliasRow {
             column: design.label(c.term),
-            chain: c
-                .chain
-                .iter()
-                .map(|m| {
-                    format!(
-                        "{}{}",
-                        if m.sign < 0 { "\u{2212}" } else { "" },
-                        design.label(m.word)
-                    )
-                })
-                .collect::<Vec<_>>()
-                .join(" = "),
+            chain: design.chain_label(c),
         })
         .collect();
     DesignText {
