@@ -1,7 +1,7 @@
 //! `plateau design`: the run sheet as CSV, JSON or a typeset PDF.
 
 use super::Failure;
-use super::find_typst;
+use super::TypstArgs;
 use plateau::design::sheet;
 use plateau::pipeline;
 use plateau::report;
@@ -26,12 +26,8 @@ pub struct Args {
     /// Replace an existing output file.
     #[arg(long)]
     force: bool,
-    /// The typst binary (with --pdf) [default: $PLATEAU_TYPST, then `typst` on the PATH].
-    #[arg(long, value_name = "PATH")]
-    typst: Option<PathBuf>,
-    /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
-    #[arg(long, value_name = "SECONDS")]
-    typst_timeout: Option<u64>,
+    #[command(flatten)]
+    typesetter: TypstArgs,
 }
 
 pub fn run(args: Args) -> Result<(), Failure> {
@@ -42,8 +38,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
         pdf,
         json,
         force,
-        typst: typst_path,
-        typst_timeout,
+        typesetter,
     } = args;
     let (s, design) = pipeline::plan(&study)?;
     let levels = if coded {
@@ -63,7 +58,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
         let out = output
             .as_deref()
             .unwrap_or(std::path::Path::new("runsheet.pdf"));
-        let typst = find_typst(typst_path.as_deref(), typst_timeout)?;
+        let typst = typesetter.find()?;
         report::runsheet::write_pdf(&s, &design, levels, &typst, out, force)
             .map_err(Failure::from)?;
         println!("ok  run sheet written to {}", out.display());

@@ -1,7 +1,7 @@
 //! `plateau diff`: what changed between two versions of a study, inputs and outputs.
 
 use super::Failure;
-use super::find_typst;
+use super::TypstArgs;
 use plateau::pipeline;
 use std::path::PathBuf;
 
@@ -30,12 +30,8 @@ pub struct Args {
     /// recorded in the change summary, for the re-approval.
     #[arg(long, value_name = "TEXT")]
     reason: Option<String>,
-    /// The typst binary (with --pdf) [default: $PLATEAU_TYPST, then `typst` on the PATH].
-    #[arg(long, value_name = "PATH")]
-    typst: Option<PathBuf>,
-    /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
-    #[arg(long, value_name = "SECONDS")]
-    typst_timeout: Option<u64>,
+    #[command(flatten)]
+    typesetter: TypstArgs,
 }
 
 pub fn run(args: Args) -> Result<(), Failure> {
@@ -48,8 +44,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
         output,
         force,
         reason,
-        typst: typst_path,
-        typst_timeout,
+        typesetter,
     } = args;
     if reason.as_deref().is_some_and(|r| r.trim().is_empty()) {
         return Err(Failure::Usage(
@@ -69,11 +64,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
         plateau::output::check_file(out, plateau::output::Kind::Pdf, force)
             .map_err(|e| Failure::Other(e.to_string()))?;
     }
-    let typesetter = if pdf {
-        Some(find_typst(typst_path.as_deref(), typst_timeout)?)
-    } else {
-        None
-    };
+    let typesetter = if pdf { Some(typesetter.find()?) } else { None };
     let (old_evaluated, old_label, old_file) = match &rev {
         Some(r) => {
             let revision =

@@ -127,11 +127,23 @@ pub fn run(command: Command) -> Result<(), Failure> {
     }
 }
 
-/// Finds typst with the time limit of `--typst-timeout` / `PLATEAU_TYPST_TIMEOUT`.
-fn find_typst(
-    path: Option<&std::path::Path>,
-    timeout: Option<u64>,
-) -> Result<typst::Typst, Failure> {
-    let limit = typst::timeout(timeout).map_err(Failure::Usage)?;
-    typst::find_with(path, limit).map_err(|e| Failure::Typesetter(e.to_string()))
+/// Where typst is and how long one call may take: the same two options on every command that
+/// typesets.
+#[derive(clap::Args)]
+pub struct TypstArgs {
+    /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
+    #[arg(long, value_name = "PATH")]
+    typst: Option<std::path::PathBuf>,
+    /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
+    #[arg(long, value_name = "SECONDS")]
+    typst_timeout: Option<u64>,
+}
+
+impl TypstArgs {
+    /// Finds typst (version-checked) with the time limit asked for.
+    fn find(&self) -> Result<typst::Typst, Failure> {
+        let limit = typst::timeout(self.typst_timeout).map_err(Failure::Usage)?;
+        typst::find_with(self.typst.as_deref(), limit)
+            .map_err(|e| Failure::Typesetter(e.to_string()))
+    }
 }

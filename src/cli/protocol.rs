@@ -1,7 +1,7 @@
 //! `plateau protocol`: the protocol folder for approval and the lock of its planning content.
 
 use super::Failure;
-use super::find_typst;
+use super::TypstArgs;
 use plateau::report;
 use std::path::PathBuf;
 
@@ -12,20 +12,15 @@ pub struct Args {
     /// Protocol folder [default: <study stem>-protocol beside the study file].
     #[arg(short, long, value_name = "DIR")]
     output: Option<PathBuf>,
-    /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
-    #[arg(long, value_name = "PATH")]
-    typst: Option<PathBuf>,
-    /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
-    #[arg(long, value_name = "SECONDS")]
-    typst_timeout: Option<u64>,
+    #[command(flatten)]
+    typesetter: TypstArgs,
 }
 
 pub fn run(args: Args) -> Result<(), Failure> {
     let Args {
         study,
         output,
-        typst: typst_path,
-        typst_timeout,
+        typesetter,
     } = args;
     let mut s = plateau::pipeline::load(&study)?;
     // The lock the study names is checked when it exists (the first run writes it).
@@ -34,7 +29,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
     }
     let design = plateau::design::plan(&s)?;
     let dir = output.unwrap_or_else(|| report::protocol::default_dir(&study));
-    let typst = find_typst(typst_path.as_deref(), typst_timeout)?;
+    let typst = typesetter.find()?;
     let lock = report::protocol::write(&s, &design, &typst, &dir).map_err(Failure::from)?;
     println!(
         "ok  protocol written to {} (planning content SHA-256 {})",

@@ -1,7 +1,7 @@
 //! `plateau report`: the report folder of one study, or of many in parallel.
 
 use super::Failure;
-use super::find_typst;
+use super::TypstArgs;
 use plateau::pipeline;
 use plateau::report;
 use std::path::PathBuf;
@@ -26,12 +26,8 @@ pub struct Args {
     /// Folder of templates that override the built-in ones file by file.
     #[arg(long, value_name = "DIR")]
     templates: Option<PathBuf>,
-    /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
-    #[arg(long, value_name = "PATH")]
-    typst: Option<PathBuf>,
-    /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
-    #[arg(long, value_name = "SECONDS")]
-    typst_timeout: Option<u64>,
+    #[command(flatten)]
+    typesetter: TypstArgs,
     /// Write everything except the PDF (no typesetter needed).
     #[arg(long)]
     no_pdf: bool,
@@ -48,8 +44,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
         jobs,
         quiet,
         templates,
-        typst: typst_path,
-        typst_timeout,
+        typesetter,
         no_pdf,
         json,
     } = args;
@@ -96,7 +91,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
     let typst = if no_pdf {
         None
     } else {
-        Some(find_typst(typst_path.as_deref(), typst_timeout)?)
+        Some(typesetter.find()?)
     };
     let options = report::Options {
         out_dir: output,

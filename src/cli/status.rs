@@ -1,7 +1,7 @@
 //! `plateau status`: each report current, stale, missing, invalid or orphaned (a CI gate).
 
 use super::Failure;
-use super::find_typst;
+use super::TypstArgs;
 use plateau::report;
 use std::path::PathBuf;
 
@@ -12,12 +12,8 @@ pub struct Args {
     /// The template folder the reports are made with.
     #[arg(long, value_name = "DIR")]
     templates: Option<PathBuf>,
-    /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
-    #[arg(long, value_name = "PATH")]
-    typst: Option<PathBuf>,
-    /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
-    #[arg(long, value_name = "SECONDS")]
-    typst_timeout: Option<u64>,
+    #[command(flatten)]
+    typesetter: TypstArgs,
     /// Print one JSON object per study, report folder or empty path.
     #[arg(long)]
     json: bool,
@@ -27,8 +23,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
     let Args {
         paths,
         templates,
-        typst: typst_path,
-        typst_timeout,
+        typesetter,
         json,
     } = args;
     let paths = if paths.is_empty() {
@@ -45,9 +40,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
         .filter(|p| !files.iter().any(|f| f.starts_with(p)))
         .filter(|p| !orphans.iter().any(|o| o.dir.starts_with(p)))
         .collect();
-    let typst_version = find_typst(typst_path.as_deref(), typst_timeout)
-        .ok()
-        .map(|t| t.version);
+    let typst_version = typesetter.find().ok().map(|t| t.version);
     let mut entries: Vec<StatusEntry> = Vec::new();
     for file in &files {
         let dir = report::default_dir(file);

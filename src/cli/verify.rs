@@ -1,7 +1,7 @@
 //! `plateau verify`: the calculation verification record of this installation.
 
 use super::Failure;
-use super::find_typst;
+use super::TypstArgs;
 use std::path::PathBuf;
 
 #[derive(clap::Args)]
@@ -15,12 +15,8 @@ pub struct Args {
     /// Date of the record, YYYY-MM-DD [default: today, from the system clock].
     #[arg(long, value_name = "YYYY-MM-DD")]
     date: Option<String>,
-    /// The typst binary [default: $PLATEAU_TYPST, then `typst` on the PATH].
-    #[arg(long, value_name = "PATH")]
-    typst: Option<PathBuf>,
-    /// Time limit of each typst call, in seconds [default: $PLATEAU_TYPST_TIMEOUT, then 300].
-    #[arg(long, value_name = "SECONDS")]
-    typst_timeout: Option<u64>,
+    #[command(flatten)]
+    typesetter: TypstArgs,
 }
 
 pub fn run(args: Args) -> Result<(), Failure> {
@@ -28,16 +24,15 @@ pub fn run(args: Args) -> Result<(), Failure> {
         output,
         json,
         date,
-        typst: typst_path,
-        typst_timeout,
+        typesetter,
     } = args;
     if let Some(d) = &date {
         plateau::verify::check_date(d).map_err(Failure::Usage)?;
     }
     let typst = if json {
-        find_typst(typst_path.as_deref(), typst_timeout).ok()
+        typesetter.find().ok()
     } else {
-        Some(find_typst(typst_path.as_deref(), typst_timeout)?)
+        Some(typesetter.find()?)
     };
     let dir = output.unwrap_or_else(plateau::verify::default_dir);
     match plateau::verify::command(&dir, json, date, typst) {
