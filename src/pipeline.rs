@@ -75,7 +75,7 @@ pub fn evaluate_in(files: &dyn Files, path: &Path) -> Result<Evaluated, Diagnost
 }
 
 /// Problems found after loading, with the study lines they point at (see
-/// [`Diagnostics::render`]).
+/// [`Diagnostic::render`]).
 fn in_context(diagnostics: Diagnostics, study: &Study) -> Diagnostics {
     diagnostics.with_source(&study.file_name, &study.text)
 }

@@ -10,7 +10,7 @@ use crate::study::LimitUnit;
 ///
 /// For a statistical criterion, `se` and `e_crit` are those of an effect of an orthogonal
 /// design with the same number of runs; an effect whose column lost orthogonality (a run
-/// excluded) has its own threshold `e_crit × se_ratio` (see [`Effect::se_ratio`]).
+/// excluded) has its own threshold `e_crit × se_ratio` (see `Effect::se_ratio`).
 #[derive(Debug, Clone, Serialize)]
 pub struct CriterionSummary {
     /// `effect-limit` or a significance method (`precision`, `dummies`, ...).

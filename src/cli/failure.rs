@@ -82,6 +82,8 @@ impl From<ReportError> for Failure {
 /// below it, the line of the study file it points into with the field underlined, coloured
 /// when standard error is a terminal.
 pub fn print_error(diagnostic: &Diagnostic) {
-    let one = Diagnostics(vec![diagnostic.clone()]);
-    eprintln!("error: {}", one.render(std::io::stderr().is_terminal()));
+    eprintln!(
+        "error: {}",
+        diagnostic.render(std::io::stderr().is_terminal())
+    );
 }

@@ -89,7 +89,7 @@ pub struct Diagnostic {
     /// What would be valid.
     pub expected: Option<String>,
     /// The text of the line `line` points into, so the problem can be shown in its context
-    /// (see [`Diagnostics::render`]); not part of the JSON form, which names the position.
+    /// (see [`Diagnostic::render`]); not part of the JSON form, which names the position.
     #[serde(skip)]
     pub source_line: Option<String>,
 }
@@ -192,32 +192,24 @@ impl Diagnostics {
         }
         self
     }
+}
 
-    /// The diagnostics for a person: each one-line message (the `FILE:LINE:COL: FIELD:
-    /// problem; expected` form that editors and scripts parse), followed by the source line
-    /// with the field underlined where the line is known. `styled` adds terminal colours.
+impl Diagnostic {
+    /// The diagnostic for a person: the one-line message (the `FILE:LINE:COL: FIELD: problem;
+    /// expected` form that editors and scripts parse), followed by the source line with the
+    /// field underlined where the line is known. `styled` adds terminal colours.
     pub fn render(&self, styled: bool) -> String {
         let renderer = if styled {
             annotate_snippets::Renderer::styled()
         } else {
             annotate_snippets::Renderer::plain()
         };
-        let mut out = String::new();
-        for (i, d) in self.0.iter().enumerate() {
-            if i > 0 {
-                out.push('\n');
-            }
-            out.push_str(&d.to_string());
-            if let Some(snippet) = d.snippet(&renderer) {
-                out.push('\n');
-                out.push_str(&snippet);
-            }
+        match self.snippet(&renderer) {
+            Some(snippet) => format!("{self}\n{snippet}"),
+            None => self.to_string(),
         }
-        out
     }
-}
 
-impl Diagnostic {
     /// The source line with the problem underlined, or `None` without a source line.
     fn snippet(&self, renderer: &annotate_snippets::Renderer) -> Option<String> {
         use annotate_snippets::{AnnotationKind, Group, Level, Snippet};
@@ -314,7 +306,7 @@ mod tests {
 
     #[test]
     fn a_rendered_diagnostic_keeps_its_one_line_form_first() {
-        let text = Diagnostics(vec![at(4, Some(12), "    delta: -3")]).render(false);
+        let text = at(4, Some(12), "    delta: -3").render(false);
         assert_eq!(
             text.lines().next(),
             Some("study.yaml:4:12: factors[0].delta: must be positive; expected a number > 0")
@@ -323,7 +315,7 @@ mod tests {
 
     #[test]
     fn a_rendered_diagnostic_underlines_the_value_on_its_numbered_line() {
-        let text = Diagnostics(vec![at(4, Some(12), "    delta: -3  # too wide")]).render(false);
+        let text = at(4, Some(12), "    delta: -3  # too wide").render(false);
         let lines: Vec<&str> = text.lines().collect();
         let source = lines.iter().position(|l| l.contains("delta: -3")).unwrap();
         assert!(lines[source].trim_start().starts_with("4 |"), "{text}");
@@ -358,7 +350,7 @@ mod tests {
     fn a_diagnostic_without_source_renders_as_one_line() {
         let mut d = at(4, Some(12), "");
         d.source_line = None;
-        assert_eq!(Diagnostics(vec![d.clone()]).render(false), d.to_string());
+        assert_eq!(d.render(false), d.to_string());
     }
 
     #[test]
